@@ -1,0 +1,44 @@
+"""The one exception hierarchy of radledger.
+
+Every error a user can cause (config, inputs, grid, units) derives from
+:class:`RadledgerError`; the command line turns those into one line on stderr
+and exit status 2.  Anything else is a bug and exits 1.
+"""
+
+from __future__ import annotations
+
+
+class RadledgerError(Exception):
+    """A problem with the user's config or inputs; the message says what to do."""
+
+
+class ConfigError(RadledgerError):
+    """The run config is malformed, misspelt or asks for something impossible."""
+
+
+class InputError(RadledgerError):
+    """An input raster or table is missing, unreadable or inconsistent."""
+
+
+class GridError(RadledgerError):
+    """The target grid cannot be built, or an input does not overlap it."""
+
+
+class UnitError(RadledgerError):
+    """Input values are implausible for the units the config declares."""
+
+
+class UnknownClassError(InputError):
+    """Land-cover classes occur that the emissivity table does not list."""
+
+
+class OutputError(RadledgerError):
+    """The output folder cannot be written, or the products would not fit."""
+
+
+class Problems(RadledgerError):
+    """Several user problems found at once (``radledger check`` reports them all)."""
+
+    def __init__(self, problems: list[RadledgerError]):
+        self.problems = list(problems)
+        super().__init__("\n".join(str(p) for p in self.problems))
