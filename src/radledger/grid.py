@@ -1,0 +1,176 @@
+"""The target grid: one CRS, transform and shape that every input is aligned onto.
+
+A :class:`TargetGrid` is a small immutable value.  It knows its chunking, so
+every part of the pipeline (inputs, physics, writers, zones) iterates over the
+same windows, and it can give the longitude/latitude of the pixel centres of
+any window without building full-scene coordinate arrays.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+from typing import Iterator
+
+import numpy as np
+from affine import Affine
+from rasterio.crs import CRS
+from rasterio.windows import Window
+
+from .errors import GridError
+
+__all__ = ["TargetGrid"]
+
+
+@dataclass(frozen=True)
+class TargetGrid:
+    """A north-up raster grid with a chunk edge.
+
+    Parameters
+    ----------
+    crs : rasterio.crs.CRS
+        Coordinate reference system of the grid.
+    transform : affine.Affine
+        Pixel-corner affine transform (rasterio convention).
+    width, height : int
+        Grid size [pixel].
+    chunk : int
+        Edge of the square Dask chunks [pixel].
+    """
+
+    crs: CRS
+    transform: Affine
+    width: int
+    height: int
+    chunk: int = 1024
+
+    def __post_init__(self):
+        if self.width <= 0 or self.height <= 0:
+            raise GridError(f"grid: size {self.width} x {self.height} is empty; check grid bounds/resolution")
+        if self.chunk <= 0:
+            raise GridError(f"grid.chunk: {self.chunk} must be a positive number of pixels")
+        if self.transform.b != 0 or self.transform.d != 0:
+            raise GridError("grid: rotated transforms are not supported; warp the input to a north-up grid first")
+
+    # --- construction ---------------------------------------------------
+    @classmethod
+    def from_bounds(cls, crs, resolution, bounds, chunk=1024) -> "TargetGrid":
+        """A grid from ``bounds = (xmin, ymin, xmax, ymax)`` and a square or (x, y) resolution."""
+        rx, ry = (resolution, resolution) if np.isscalar(resolution) else resolution
+        xmin, ymin, xmax, ymax = bounds
+        if rx <= 0 or ry <= 0:
+            raise GridError(f"grid.resolution: {resolution} must be positive")
+        if xmax <= xmin or ymax <= ymin:
+            raise GridError(f"grid.bounds: {list(bounds)} must be [xmin, ymin, xmax, ymax] with xmin < xmax and ymin < ymax")
+        width = int(np.ceil((xmax - xmin) / rx - 1e-9))
+        height = int(np.ceil((ymax - ymin) / ry - 1e-9))
+        return cls(CRS.from_user_input(crs), Affine(rx, 0.0, xmin, 0.0, -ry, ymax), width, height, int(chunk))
+
+    @classmethod
+    def from_dataset(cls, dataset, chunk=1024) -> "TargetGrid":
+        """The grid of an open rasterio dataset."""
+        if dataset.crs is None:
+            raise GridError(f"{dataset.name}: has no CRS; assign one (e.g. gdal_edit.py -a_srs EPSG:xxxx) before using it as the grid")
+        return cls(CRS.from_user_input(dataset.crs), dataset.transform, dataset.width, dataset.height, int(chunk))
+
+    # --- geometry -------------------------------------------------------
+    @property
+    def shape(self) -> tuple[int, int]:
+        return (self.height, self.width)
+
+    @property
+    def bounds(self) -> tuple[float, float, float, float]:
+        t = self.transform
+        x0, y0 = t.c, t.f
+        x1, y1 = t * (self.width, self.height)
+        return (min(x0, x1), min(y0, y1), max(x0, x1), max(y0, y1))
+
+    @property
+    def resolution(self) -> tuple[float, float]:
+        return (abs(self.transform.a), abs(self.transform.e))
+
+    @property
+    def chunks(self) -> tuple[tuple[int, ...], tuple[int, ...]]:
+        """Dask chunks of a 2-D array on this grid."""
+        return (_split(self.height, self.chunk), _split(self.width, self.chunk))
+
+    def windows(self) -> Iterator[Window]:
+        """Every chunk window, row-major."""
+        r = 0
+        for h in self.chunks[0]:
+            c = 0
+            for w in self.chunks[1]:
+                yield Window(c, r, w, h)
+                c += w
+            r += h
+
+    def window_transform(self, window: Window) -> Affine:
+        return self.transform * Affine.translation(window.col_off, window.row_off)
+
+    def window_bounds(self, window: Window) -> tuple[float, float, float, float]:
+        t = self.window_transform(window)
+        x0, y0 = t.c, t.f
+        x1, y1 = t * (window.width, window.height)
+        return (min(x0, x1), min(y0, y1), max(x0, x1), max(y0, y1))
+
+    def pixel_centres(self, window: Window) -> tuple[np.ndarray, np.ndarray]:
+        """x, y of the pixel centres of ``window`` in the grid CRS (2-D arrays)."""
+        t = self.window_transform(window)
+        cols = np.arange(int(window.width)) + 0.5
+        rows = np.arange(int(window.height)) + 0.5
+        xs = t.c + t.a * cols
+        ys = t.f + t.e * rows
+        return np.meshgrid(xs, ys)
+
+    def lonlat(self, window: Window) -> tuple[np.ndarray, np.ndarray]:
+        """Longitude, latitude [deg] of the pixel centres of ``window``."""
+        x, y = self.pixel_centres(window)
+        if self.crs.is_geographic:
+            return x, y
+        return self._to_lonlat.transform(x, y)
+
+    @cached_property
+    def _to_lonlat(self):
+        from pyproj import Transformer
+
+        return Transformer.from_crs(self.crs, "EPSG:4326", always_xy=True)
+
+    def pixel_area(self, window: Window) -> np.ndarray:
+        """Area of each pixel of ``window`` [m2] (exact for projected grids, ellipsoidal for geographic)."""
+        if not self.crs.is_geographic:
+            a = abs(self.transform.a * self.transform.e)
+            return np.full((int(window.height), int(window.width)), a)
+        from pyproj import Geod
+
+        geod = Geod(ellps="WGS84")
+        t = self.window_transform(window)
+        dx, dy = abs(t.a), abs(t.e)
+        _, lat = self.lonlat(window)
+        lat_c = lat[:, 0]
+        # area of a lat/lon cell from the spherical-zone formula on the ellipsoid's authalic radius
+        r = geod.a * np.sqrt((1 + (1 - geod.f) ** 2) / 2)  # close to the authalic radius, error << 0.1 %
+        area = (r**2) * np.deg2rad(dx) * np.abs(
+            np.sin(np.deg2rad(lat_c + dy / 2)) - np.sin(np.deg2rad(lat_c - dy / 2))
+        )
+        return np.repeat(area[:, None], int(window.width), axis=1)
+
+    def same_as(self, crs, transform, width, height, *, tol: float = 1e-6) -> bool:
+        """True if another raster lies exactly on this grid (same CRS, pixels and size)."""
+        if (width, height) != (self.width, self.height) or crs is None:
+            return False
+        if CRS.from_user_input(crs) != self.crs:
+            return False
+        return transform.almost_equals(self.transform, precision=tol * max(self.resolution))
+
+    def describe(self) -> str:
+        x0, y0, x1, y1 = self.bounds
+        rx, ry = self.resolution
+        epsg = self.crs.to_epsg()
+        crs = f"EPSG:{epsg}" if epsg else self.crs.to_string()[:60]
+        return (f"{crs}, {self.width} x {self.height} px at {rx:g} x {ry:g}, "
+                f"bounds [{x0:.6g}, {y0:.6g}, {x1:.6g}, {y1:.6g}], chunk {self.chunk}")
+
+
+def _split(n: int, step: int) -> tuple[int, ...]:
+    full, rest = divmod(n, step)
+    return (step,) * full + ((rest,) if rest else ())
