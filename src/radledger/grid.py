@@ -82,7 +82,7 @@ class TargetGrid:
     def bounds(self) -> tuple[float, float, float, float]:
         t = self.transform
         x0, y0 = t.c, t.f
-        x1, y1 = t * (self.width, self.height)
+        x1, y1 = _apply(t, self.width, self.height)
         return (min(x0, x1), min(y0, y1), max(x0, x1), max(y0, y1))
 
     @property
@@ -105,12 +105,14 @@ class TargetGrid:
             r += h
 
     def window_transform(self, window: Window) -> Affine:
-        return self.transform * Affine.translation(window.col_off, window.row_off)
+        t = self.transform
+        x, y = _apply(t, window.col_off, window.row_off)
+        return Affine(t.a, t.b, x, t.d, t.e, y)
 
     def window_bounds(self, window: Window) -> tuple[float, float, float, float]:
         t = self.window_transform(window)
         x0, y0 = t.c, t.f
-        x1, y1 = t * (window.width, window.height)
+        x1, y1 = _apply(t, window.width, window.height)
         return (min(x0, x1), min(y0, y1), max(x0, x1), max(y0, y1))
 
     def pixel_centres(self, window: Window) -> tuple[np.ndarray, np.ndarray]:
@@ -169,6 +171,11 @@ class TargetGrid:
         crs = f"EPSG:{epsg}" if epsg else self.crs.to_string()[:60]
         return (f"{crs}, {self.width} x {self.height} px at {rx:g} x {ry:g}, "
                 f"bounds [{x0:.6g}, {y0:.6g}, {x1:.6g}, {y1:.6g}], chunk {self.chunk}")
+
+
+def _apply(t: Affine, col: float, row: float) -> tuple[float, float]:
+    """Map pixel (col, row) to x, y (written out: affine deprecates ``*`` for this)."""
+    return t.a * col + t.b * row + t.c, t.d * col + t.e * row + t.f
 
 
 def _split(n: int, step: int) -> tuple[int, ...]:

@@ -24,22 +24,22 @@ def describe_product(path: str) -> str:
         with gdal_env(), rasterio.open(path) as ds:
             tags = ds.tags()
             struct = ds.tags(ns="IMAGE_STRUCTURE")
-            lines = [f"file:      {path}"]
+            lines = [f"file:          {path}"]
             for k in _ORDER:
                 if tags.get(k):
-                    lines.append(f"{k + ':':10s} {tags[k]}")
+                    lines.append(f"{k + ':':14s} {tags[k]}")
             epsg = ds.crs.to_epsg() if ds.crs else None
             crs = f"EPSG:{epsg}" if epsg else (ds.crs.to_string() if ds.crs else "none")
-            lines += [f"grid:      {crs}, {ds.width} x {ds.height} px at {abs(ds.transform.a):g} x "
+            lines += [f"grid:          {crs}, {ds.width} x {ds.height} px at {abs(ds.transform.a):g} x "
                       f"{abs(ds.transform.e):g}, bounds {tuple(round(b, 6) for b in ds.bounds)}",
-                      f"storage:   {ds.dtypes[0]}, nodata {ds.nodata}, tiles {ds.block_shapes[0]}, "
+                      f"storage:       {ds.dtypes[0]}, nodata {ds.nodata}, tiles {ds.block_shapes[0]}, "
                       f"compression {struct.get('COMPRESSION', 'none')}, layout {struct.get('LAYOUT', 'GTiff')}, "
                       f"overviews {ds.overviews(1)}"]
             if tags.get("flag_meanings"):
                 pairs = zip(tags["flag_masks"].split(), tags["flag_meanings"].split())
-                lines.append("flags:     " + ", ".join(f"{m}={n}" for m, n in pairs))
+                lines.append("flags:         " + ", ".join(f"{m}={n}" for m, n in pairs))
             if not tags.get("software", "").startswith("radledger"):
-                lines.append("note:      not written by radledger (no provenance tags)")
+                lines.append("note:          not written by radledger (no provenance tags)")
             return "\n".join(lines)
     except rasterio.errors.RasterioIOError as exc:
         raise InputError(f"{path}: cannot open as a raster ({exc}); is it a radledger product?") from None

@@ -1,0 +1,211 @@
+"""Map versus point: the pipeline's maps equal the physics evaluated pixel by pixel.
+
+The reference here is radledger's public physics API (itself checked against
+FAO-56 and reference libraries in test_reference_*.py) applied to inputs
+decoded independently with NumPy, and, for inputs on other grids, GDAL's own
+whole-array warp (rasterio.warp.reproject) rather than the per-chunk path.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import rasterio
+from rasterio.enums import Resampling
+from rasterio.warp import reproject
+
+import radledger
+from radledger import physics as ph
+from radledger.products import QUALITY_BITS, QUALITY_NODATA
+from radledger.runner import run_config
+from radledger.config import load_config
+
+from scenario import CLASSES, CRS_UTM, DELETE, make_scenario, read
+
+STAMP = "20260714T1810"
+
+
+def _eps(classes):
+    lut = np.full(256, np.nan)
+    for c, e in CLASSES.items():
+        lut[c] = e
+    return lut[classes.astype(int)]
+
+
+def _expected_rn(t, ta=None, ea=None, rs=None):
+    ta = t["air_temperature"] if ta is None else ta
+    ea = t["vapour_pressure"] if ea is None else ea
+    rs = t["shortwave_down"] if rs is None else rs
+    return radledger.net_radiation(t["albedo"], rs, t["surface_temperature"], ta, ea, _eps(t["land_cover"]))
+
+
+def _run(scn, **kw):
+    return run_config(load_config(scn.config), quiet=True, **kw)
+
+
+def test_same_grid_scaled_integers_hpa_degc_match_point_by_point(tmp_path):
+    scn = make_scenario(tmp_path)
+    _run(scn)
+    got = read(tmp_path / "out" / "scenes" / f"net_radiation_{STAMP}.tif")
+    exp = _expected_rn(scn.truth)
+    assert got.dtype == np.float32
+    # NaN exactly where an input is missing
+    np.testing.assert_array_equal(np.isnan(got), np.isnan(exp))
+    ok = ~np.isnan(exp)
+    assert np.nanmax(np.abs(got[ok] - exp[ok])) < 0.02   # float32 arithmetic vs float64 reference
+
+
+def test_components_and_sign_convention(tmp_path):
+    scn = make_scenario(tmp_path, holes=False)
+    _run(scn)
+    out = tmp_path / "out" / "scenes"
+    rn, rns, rnl = (read(out / f"{p}_{STAMP}.tif") for p in ("net_radiation", "net_shortwave", "net_longwave"))
+    t = scn.truth
+    np.testing.assert_allclose(rns, (1 - t["albedo"]) * t["shortwave_down"], atol=0.01)   # FAO-56 eq. 38
+    np.testing.assert_allclose(rn, rns - rnl, atol=0.01)                                    # FAO-56 eq. 40
+    assert (rnl > 0).mean() > 0.9   # daytime: the surface loses net longwave (common practice)
+
+
+def test_coarse_geographic_weather_matches_whole_array_warp(tmp_path):
+    scn = make_scenario(tmp_path, coarse_weather=True)
+    _run(scn)
+    got = read(tmp_path / "out" / "scenes" / f"net_radiation_{STAMP}.tif")
+    c = scn.truth["coarse"]
+    warped = {}
+    for name in ("ta", "ea", "rs"):
+        dst = np.full(scn.shape, np.nan, np.float32)
+        reproject(c[name], dst, src_transform=c["transform"], src_crs=c["crs"], dst_transform=scn.transform,
+                  dst_crs=CRS_UTM, resampling=Resampling.bilinear, dst_nodata=np.nan)
+        warped[name] = dst.astype(float)
+    exp = _expected_rn(scn.truth, ta=warped["ta"] + 273.15, ea=warped["ea"] * 0.1, rs=warped["rs"])
+    np.testing.assert_array_equal(np.isnan(got), np.isnan(exp))
+    ok = ~np.isnan(exp)
+    assert np.max(np.abs(got[ok] - exp[ok])) < 0.1
+
+
+def test_quality_flags_missing_and_out_of_range(tmp_path):
+    scn = make_scenario(tmp_path)
+    # a hot spot of implausible LST (400 K) inside the grid
+    with rasterio.open(tmp_path / "lst.tif", "r+") as ds:
+        a = ds.read(1)
+        a[200:205, 10:15] = int(400 / 0.02)
+        ds.write(a, 1)
+    report = _run(scn)
+    out = tmp_path / "out" / "scenes"
+    q = read(out / f"quality_{STAMP}.tif")
+    rn = read(out / f"net_radiation_{STAMP}.tif")
+    assert q.dtype == np.uint8
+    assert (q[200:205, 10:15] & QUALITY_BITS["out_of_range"]).all()
+    assert np.isnan(rn[200:205, 10:15]).all()
+    assert (q[10:30, 40:70] & QUALITY_BITS["input_missing"]).all()   # albedo hole
+    assert not (q == QUALITY_NODATA).any()
+    assert report.results[0].summary["quality"]["out_of_range"] == 25
+    with rasterio.open(out / f"quality_{STAMP}.tif") as ds:
+        assert ds.nodata == QUALITY_NODATA
+        assert "out_of_range" in ds.tags()["flag_meanings"]
+
+
+def test_modelled_clear_sky_shortwave_when_absent(tmp_path):
+    scn = make_scenario(tmp_path, holes=False, with_shortwave=False)
+    _run(scn)
+    out = tmp_path / "out" / "scenes"
+    rns = read(out / f"net_shortwave_{STAMP}.tif")
+    q = read(out / f"quality_{STAMP}.tif")
+    assert (q & QUALITY_BITS["modelled_shortwave"]).all()
+    grid_lon, grid_lat = _lonlat(scn)
+    ra = ph.extraterrestrial_instant(grid_lat, grid_lon, 195, 18 + 10 / 60)   # 14 July = day 195
+    rso = ph.clear_sky_shortwave_fao56(ra, scn.truth["elevation"])           # FAO-56 eq. 37
+    np.testing.assert_allclose(rns, (1 - scn.truth["albedo"]) * rso, atol=0.05)
+
+
+def _lonlat(scn):
+    from pyproj import Transformer
+    h, w = scn.shape
+    t = scn.transform
+    xs = t.c + t.a * (np.arange(w) + 0.5)
+    ys = t.f + t.e * (np.arange(h) + 0.5)
+    x, y = np.meshgrid(xs, ys)
+    return Transformer.from_crs(CRS_UTM, "EPSG:4326", always_xy=True).transform(x, y)
+
+
+def test_crawford_duchon_raises_sky_emissivity_under_cloud(tmp_path):
+    scn = make_scenario(tmp_path, holes=False)
+    with rasterio.open(tmp_path / "rs.tif", "r+") as ds:
+        a = ds.read(1)
+        a[:, :100] *= 0.4     # a cloud band over the western third
+        ds.write(a, 1)
+    scn.write_config(**{"methods.clouds": "crawford-duchon",
+                        "output.products": ["net_radiation", "sky_emissivity", "quality"]})
+    _run(scn)
+    out = tmp_path / "out" / "scenes"
+    eps = read(out / f"sky_emissivity_{STAMP}.tif")
+    q = read(out / f"quality_{STAMP}.tif")
+    lon, lat = _lonlat(scn)
+    rso = ph.clear_sky_shortwave_fao56(ph.extraterrestrial_instant(lat, lon, 195, 18 + 10 / 60),
+                                       scn.truth["elevation"])
+    with rasterio.open(tmp_path / "rs.tif") as ds:
+        rs = ds.read(1).astype(float)
+    clear = ph.brutsaert_1975(scn.truth["air_temperature"], scn.truth["vapour_pressure"])
+    exp = ph.crawford_duchon_1999(clear, rs, rso)
+    np.testing.assert_allclose(eps, exp, atol=1e-5)
+    assert (q[:, :100] & QUALITY_BITS["cloud_corrected"]).all()
+
+
+def test_rerun_skips_current_products_and_overwrite_recomputes(tmp_path):
+    scn = make_scenario(tmp_path)
+    first = _run(scn)
+    assert len(first.written) == 4
+    path = tmp_path / "out" / "scenes" / f"net_radiation_{STAMP}.tif"
+    mtime = path.stat().st_mtime_ns
+    second = _run(scn)
+    assert second.written == [] and len(second.skipped) == 4
+    assert path.stat().st_mtime_ns == mtime
+    third = _run(scn, overwrite=True)
+    assert len(third.written) == 4
+
+
+def test_changed_input_recomputes(tmp_path):
+    scn = make_scenario(tmp_path)
+    _run(scn)
+    scn.write_config(**{"methods.sky_emissivity": "prata"})
+    again = _run(scn)
+    assert len(again.written) == 4
+
+
+def test_other_sky_models_match_point_by_point(tmp_path):
+    scn = make_scenario(tmp_path, holes=False)
+    for model in ph.SKY_EMISSIVITY_MODELS:
+        scn.write_config(**{"methods.sky_emissivity": model, "output.products": ["net_radiation"]})
+        _run(scn)
+        got = read(tmp_path / "out" / "scenes" / f"net_radiation_{STAMP}.tif")
+        t = scn.truth
+        exp = radledger.net_radiation(t["albedo"], t["shortwave_down"], t["surface_temperature"],
+                                      t["air_temperature"], t["vapour_pressure"], _eps(t["land_cover"]),
+                                      sky_emissivity=model)
+        assert np.nanmax(np.abs(got - exp)) < 0.02, model
+
+
+def test_dewpoint_instead_of_vapour_pressure(tmp_path):
+    from scenario import write_tif
+    scn = make_scenario(tmp_path, holes=False)
+    td = np.full(scn.shape, 8.0, np.float32)       # degC
+    write_tif(tmp_path / "td.tif", td, transform=scn.transform)
+    scn.write_config(**{"scenes.0.vapour_pressure": DELETE, "scenes.0.dewpoint_temperature": "td.tif",
+                        "layers.dewpoint_temperature": {"units": "degC"}, "output.products": ["net_radiation"]})
+    _run(scn)
+    got = read(tmp_path / "out" / "scenes" / f"net_radiation_{STAMP}.tif")
+    ea = ph.vapour_pressure_from_dewpoint(np.full(scn.shape, 281.15))   # FAO-56 eq. 14
+    exp = _expected_rn(scn.truth, ea=ea)
+    assert np.nanmax(np.abs(got - exp)) < 0.02
+
+
+def test_static_layer_shared_by_scenes(tmp_path):
+    scn = make_scenario(tmp_path, holes=False)
+    scn.write_config(**{"scenes.0.air_temperature": DELETE, "static.air_temperature": "ta.tif"})
+    import yaml
+    cfg = yaml.safe_load(scn.config.read_text())
+    second = dict(cfg["scenes"][0], time="2026-07-15T18:10:00Z")
+    cfg["scenes"] = [cfg["scenes"][0], second]
+    scn.config.write_text(yaml.safe_dump(cfg))
+    report = _run(scn)
+    assert len(report.written) == 8
