@@ -79,10 +79,11 @@ class Plan:
         lines.append(f"estimated output size: {_human(self.estimated_bytes())}")
         return "\n".join(lines)
 
-    def estimated_bytes(self) -> int:
+    def estimated_bytes(self, n_products: int | None = None) -> int:
         """A generous upper bound of the disk a run needs (intermediate + COG of the largest product)."""
         px = self.grid.width * self.grid.height
-        n_products = sum(len(j.outputs) + (j.day_output is not None) for j in self.jobs)
+        if n_products is None:
+            n_products = sum(len(j.outputs) + (j.day_output is not None) for j in self.jobs)
         n_products += sum(len(c.statistics) for c in self.cfg.composites)
         # float32 COG ~ 0.75 x raw after ZSTD + 1/3 overviews; plus one raw intermediate in flight
         return int(px * 4 * (n_products * 1.0 + len(self.cfg.output.products)))
@@ -130,6 +131,9 @@ def make_plan(cfg: Config, *, inspect_inputs: bool = True, force: bool = False) 
     except RadledgerError as exc:
         raise exc
     plan = Plan(cfg=cfg, grid=grid)
+    early = output_problems(plan, force=force, jobs_known=False)
+    if early:
+        raise early[0]
     sources_cache: dict[tuple[str, str, str], LayerSource] = {}
 
     def source(layer: str, path: str, kind: str) -> LayerSource | None:
@@ -239,7 +243,7 @@ def _flatten(problems):
     return out
 
 
-def output_problems(plan: Plan, *, force: bool) -> list[RadledgerError]:
+def output_problems(plan: Plan, *, force: bool, jobs_known: bool = True) -> list[RadledgerError]:
     """Output folder writable, and the products fit on its disk."""
     out = plan.out
     probe = out
@@ -248,7 +252,9 @@ def output_problems(plan: Plan, *, force: bool) -> list[RadledgerError]:
     if not os.access(probe, os.W_OK | os.X_OK) or not probe.is_dir():
         return [OutputError(f"{out}: output folder is not writable (nearest existing folder {probe}); "
                             f"choose another output.directory or fix its permissions")]
-    need = plan.estimated_bytes()
+    need = plan.estimated_bytes(len(plan.cfg.scenes) * len(plan.cfg.output.products)
+                                + len(plan.cfg.days) * len(plan.cfg.output.products)) if not jobs_known \
+        else plan.estimated_bytes()
     free = shutil.disk_usage(probe).free
     if need > free and not force:
         return [OutputError(f"{out}: the run needs about {_human(need)} but only {_human(free)} is free; "
@@ -257,13 +263,33 @@ def output_problems(plan: Plan, *, force: bool) -> list[RadledgerError]:
 
 
 def land_cover_classes(src: LayerSource, grid: TargetGrid) -> list[int]:
-    """Classes of the land cover that fall on the grid (nearest, chunk by chunk)."""
+    """Classes of the land cover within the grid's bounds, read block by block at native resolution.
+
+    Reading the file's own blocks (not the grid) keeps the cost bounded by the
+    file, whatever the size of the target grid.
+    """
+    from rasterio.warp import transform_bounds
+    from rasterio.windows import Window, from_bounds
+
     seen = np.zeros(65536, dtype=bool)
-    for win in grid.windows():
-        a = src.read(grid, win)
-        a = a[~np.isnan(a)]
-        if a.size:
-            v = a.astype(np.int64)
-            v = v[(v >= 0) & (v < seen.size)]
-            seen[np.unique(v)] = True
+    with gdal_env():
+        ds = open_dataset(src.gdal_path, src.path)
+        b = transform_bounds(grid.crs, ds.crs, *grid.bounds, densify_pts=21)
+        full = Window(0, 0, ds.width, ds.height)
+        try:
+            area = from_bounds(*b, transform=ds.transform).round_offsets().round_lengths().intersection(full)
+        except Exception:
+            return []
+        bh, bw = ds.block_shapes[0]
+        step_r, step_c = max(bh, 512), max(bw, 512)
+        r0, c0 = int(area.row_off), int(area.col_off)
+        for r in range(r0, r0 + int(area.height), step_r):
+            for c in range(c0, c0 + int(area.width), step_c):
+                win = Window(c, r, min(step_c, c0 + area.width - c), min(step_r, r0 + area.height - r))
+                a = ds.read(1, window=win)
+                if src.nodata is not None:
+                    a = a[a != src.nodata]
+                v = a.astype(np.int64).ravel()
+                v = v[(v >= 0) & (v < seen.size)]
+                seen[np.unique(v)] = True
     return [int(c) for c in np.flatnonzero(seen)]
