@@ -12,12 +12,13 @@ from __future__ import annotations
 
 import os
 import threading
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
 import rasterio
 from rasterio.enums import Resampling
-from rasterio.errors import RasterioIOError
+from rasterio.errors import NotGeoreferencedWarning, RasterioIOError
 from rasterio.warp import reproject, transform_bounds
 from rasterio.windows import Window, from_bounds
 
@@ -79,12 +80,16 @@ class LayerSource:
         out = np.full((h, w), np.nan, dtype=np.float32)
         if not self._overlaps(ds, grid, window):
             return out
-        reproject(
-            source=rasterio.band(ds, 1), destination=out,
-            src_nodata=nodata, dst_transform=grid.window_transform(window), dst_crs=grid.crs,
-            dst_nodata=np.nan, resampling=Resampling[self.resampling], init_dest_nodata=True,
-            num_threads=1,
-        )
+        with warnings.catch_warnings():
+            # rasterio warns about the georeferencing of its temporary in-memory target; the
+            # target's transform and CRS are given explicitly here
+            warnings.simplefilter("ignore", NotGeoreferencedWarning)
+            reproject(
+                source=rasterio.band(ds, 1), destination=out,
+                src_nodata=nodata, dst_transform=grid.window_transform(window), dst_crs=grid.crs,
+                dst_nodata=np.nan, resampling=Resampling[self.resampling], init_dest_nodata=True,
+                num_threads=1,
+            )
         return out
 
     @staticmethod

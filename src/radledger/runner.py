@@ -190,6 +190,7 @@ def run_zones(plan: Plan, report: RunReport) -> list[Path]:
     for p in _zone_targets(plan):
         rows = zone_statistics(read_product(str(p), plan.grid), labels, zones, plan.grid)
         out = plan.out / "zones" / f"{p.stem}.csv"
+        out.parent.mkdir(parents=True, exist_ok=True)
         write_zone_csv(rows, out, z.id)
         written.append(out)
     return written
@@ -224,6 +225,7 @@ def run_netcdf(plan: Plan) -> list[Path]:
                 bounds = [(t, t + dt.timedelta(days=1)) for t in times]
                 cell = "time: mean"
             out = plan.out / "netcdf" / f"{name}_{kind}.nc"
+            out.parent.mkdir(parents=True, exist_ok=True)
             write_stack([str(p) for _, p in items], times, out, grid=plan.grid, product=info,
                         cell_methods=cell, time_bounds=bounds,
                         attrs={"title": plan.cfg.title, "source": f"radledger {__version__}"})
@@ -252,6 +254,7 @@ def run_quicklooks(plan: Plan, report: RunReport) -> list[Path]:
         if kind == "days" and tags.get("daily_total"):
             title += f" ({tags['daily_total']})"
         png = plan.out / "quicklooks" / f"{path.stem}.png"
+        png.parent.mkdir(parents=True, exist_ok=True)
         write_quicklook(str(path), str(png), title=title, units=tags.get("units", ""), diverging=diverging,
                         zones=zones, categorical_bits=QUALITY_BITS if base == "quality" else None)
         written.append(png)
