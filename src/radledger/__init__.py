@@ -3,3 +3,9 @@
 from __future__ import annotations
 
 __version__ = "0.1.0"
+
+from .api import daily_net_radiation, net_radiation
+
+# run is added by the pipeline
+
+__all__ = ["__version__", "net_radiation", "daily_net_radiation"]
