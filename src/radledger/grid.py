@@ -142,18 +142,22 @@ class TargetGrid:
         if not self.crs.is_geographic:
             a = abs(self.transform.a * self.transform.e)
             return np.full((int(window.height), int(window.width)), a)
-        from pyproj import Geod
-
-        geod = Geod(ellps="WGS84")
+        # exact area of a lon/lat cell on the WGS84 ellipsoid (authalic-latitude form):
+        # A = a^2 (1 - e^2) dlon / 2 * [q(lat2) - q(lat1)],
+        # q(p) = sin p / (1 - e^2 sin^2 p) + ln((1 + e sin p) / (1 - e sin p)) / (2 e)
+        a_, f_ = 6378137.0, 1 / 298.257223563
+        e2 = f_ * (2 - f_)
+        e = np.sqrt(e2)
         t = self.window_transform(window)
         dx, dy = abs(t.a), abs(t.e)
         _, lat = self.lonlat(window)
         lat_c = lat[:, 0]
-        # area of a lat/lon cell from the spherical-zone formula on the ellipsoid's authalic radius
-        r = geod.a * np.sqrt((1 + (1 - geod.f) ** 2) / 2)  # close to the authalic radius, error << 0.1 %
-        area = (r**2) * np.deg2rad(dx) * np.abs(
-            np.sin(np.deg2rad(lat_c + dy / 2)) - np.sin(np.deg2rad(lat_c - dy / 2))
-        )
+
+        def q(p):
+            sp = np.sin(np.deg2rad(p))
+            return sp / (1 - e2 * sp**2) + np.log((1 + e * sp) / (1 - e * sp)) / (2 * e)
+
+        area = a_**2 * (1 - e2) * np.deg2rad(dx) / 2 * np.abs(q(lat_c + dy / 2) - q(lat_c - dy / 2))
         return np.repeat(area[:, None], int(window.width), axis=1)
 
     def same_as(self, crs, transform, width, height, *, tol: float = 1e-6) -> bool:
