@@ -6,6 +6,6 @@ __version__ = "0.1.0"
 
 from .api import daily_net_radiation, net_radiation
 
-# run is added by the pipeline
+from .runner import run
 
-__all__ = ["__version__", "net_radiation", "daily_net_radiation"]
+__all__ = ["__version__", "net_radiation", "daily_net_radiation", "run"]
