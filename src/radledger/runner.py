@@ -228,6 +228,7 @@ def run_netcdf(plan: Plan) -> list[Path]:
             out.parent.mkdir(parents=True, exist_ok=True)
             write_stack([str(p) for _, p in items], times, out, grid=plan.grid, product=info,
                         cell_methods=cell, time_bounds=bounds,
+                        flags=QUALITY_BITS if name == "quality" else None,
                         attrs={"title": plan.cfg.title, "source": f"radledger {__version__}"})
             written.append(out)
     return written
