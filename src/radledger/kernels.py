@@ -116,6 +116,14 @@ def scene_kernel(arrays: dict[str, np.ndarray], lon: np.ndarray | None, lat: np.
     """Every scene product of one chunk [W m-2, 1]; see :data:`products.SCENE_PRODUCTS`."""
     shape = next(iter(arrays.values())).shape
     q = np.zeros(shape, dtype=np.uint8)
+    if fused_applies(p, arrays):
+        eps_s = _emissivity(arrays, p, q)
+        out = fused_scene(arrays, eps_s, p)
+        out["quality"] |= q
+        if lat is not None:
+            ra = ph.extraterrestrial_instant(lat, lon, p.day_of_year, p.utc_hour)
+            out["quality"][ra <= 0] |= B["sun_down"]
+        return out
     albedo = _checked(arrays, "albedo", q)
     ts = _checked(arrays, "surface_temperature", q)
     ta = _checked(arrays, "air_temperature", q)
@@ -187,6 +195,9 @@ def _scene_to_day(rn: np.ndarray, lon, lat, rso, p: SceneParams) -> np.ndarray:
         rso_day = z * ph.extraterrestrial_daily(lat, p.day_of_year)
         day = ph.shortwave_ratio_daily_jackson_1983(rn, rso, rso_day)
     return np.where(rso > 0, day, np.float32(np.nan)).astype(np.float32)
+
+
+from .fused import fused_applies, fused_scene  # noqa: E402  (fused imports PHYSICAL_RANGES from here)
 
 
 def day_kernel(arrays: dict[str, np.ndarray], lat: np.ndarray, p: DayParams) -> dict[str, np.ndarray]:

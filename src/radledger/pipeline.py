@@ -14,8 +14,8 @@ import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
-import dask
 import dask.array as da
+from dask.base import tokenize
 import numpy as np
 
 from . import __version__
@@ -54,21 +54,20 @@ def _block(job: Job, grid: TargetGrid, window, names: tuple[str, ...]) -> np.nda
 
 
 def job_stack(job: Job, grid: TargetGrid, names: tuple[str, ...] | None = None) -> da.Array:
-    """The lazy (n_products, height, width) float32 stack of a job; builds the graph only."""
+    """The lazy (n_products, height, width) float32 stack of a job; builds the graph only.
+
+    One task per chunk, written out directly: ``dask.delayed`` would tokenize
+    the job (with its lookup table) once per chunk, which cost more than the
+    chunk's arithmetic on small grids.
+    """
     names = names or product_order(job)
-    block = dask.delayed(_block, pure=True)
-    rows = []
-    r = 0
-    win_iter = iter(grid.windows())
-    for h in grid.chunks[0]:
-        row = []
-        for w in grid.chunks[1]:
-            win = next(win_iter)
-            row.append(da.from_delayed(block(job, grid, win, names), shape=(len(names), h, w),
-                                       dtype=np.float32, meta=np.empty((0, 0, 0), np.float32)))
-        rows.append(row)
-        r += h
-    return da.block(rows)
+    name = f"radledger-{job.kind}-{job.label}-" + tokenize(job.settings_hash, names, grid.describe())
+    ncols = len(grid.chunks[1])
+    dsk = {}
+    for k, win in enumerate(grid.windows()):
+        dsk[(name, 0, k // ncols, k % ncols)] = (_block, job, grid, win, names)
+    return da.Array(dsk, name, chunks=((len(names),),) + grid.chunks, dtype=np.float32,
+                    meta=np.empty((0, 0, 0), np.float32))
 
 
 @dataclass
