@@ -35,6 +35,7 @@ PHYSICAL_RANGES: dict[str, tuple[float, float]] = {
 }
 
 B = QUALITY_BITS
+CLOUD_FLAG_FRACTION = 0.1   # Crawford-Duchon cloud fraction above which `cloud_corrected` is set
 
 
 @dataclass(frozen=True)
@@ -155,7 +156,8 @@ def scene_kernel(arrays: dict[str, np.ndarray], lon: np.ndarray | None, lat: np.
             day = rso > 0
             cd = ph.crawford_duchon_1999(eps_clear, rs, np.where(day, rso, np.float32(1.0)))
             eps_sky = np.where(day, cd, eps_clear)
-            q[day & (eps_sky > eps_clear)] |= B["cloud_corrected"]
+            # flag only a noticeable correction: cloud fraction c = 1 - Rs/Rso >= CLOUD_FLAG_FRACTION
+            q[day & (rs < (1.0 - CLOUD_FLAG_FRACTION) * rso)] |= B["cloud_corrected"]
             q[day & (rs > rso)] |= B["shortwave_capped"]
 
     out: dict[str, np.ndarray] = {}

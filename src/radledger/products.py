@@ -64,7 +64,7 @@ QUALITY_BITS: dict[str, int] = {
     "input_missing": 1,          # an input the pixel needs is nodata or off its footprint
     "out_of_range": 2,           # an input value outside its physical range (set to NaN)
     "modelled_shortwave": 4,     # shortwave_down modelled as clear sky (no shortwave grid given)
-    "cloud_corrected": 8,        # sky emissivity raised by the Crawford-Duchon cloud correction
+    "cloud_corrected": 8,        # Crawford-Duchon cloud fraction 1 - Rs/Rso >= 0.1 (sky emissivity raised)
     "emissivity_default": 16,    # land-cover class missing from the table, `unknown` value used
     "sun_down": 32,              # sun below the horizon at the scene time
     "shortwave_capped": 64,      # Rs/Rso > 1 capped (days) or Rs > Rs_clear (scenes)

@@ -211,8 +211,10 @@ def write_quicklook(tif_path: str | os.PathLike, png_path: str | os.PathLike, *,
 
     scale, xlabel, ylabel, aspect = _axes_frame(crs)
     extent = (left * scale, right * scale, bottom * scale, top * scale)
-    fig = Figure(figsize=FIGSIZE, dpi=DPI, layout="constrained")
+    # a fixed layout: constrained layout drew every figure twice and doubled the time per PNG
+    fig = Figure(figsize=FIGSIZE, dpi=DPI)
     FigureCanvasAgg(fig)
+    fig.subplots_adjust(left=0.09, right=0.72 if categorical else 0.97, bottom=0.11, top=0.91)
     ax = fig.add_subplot()
     ax.set_facecolor("white")
     if categorical:

@@ -85,7 +85,7 @@ def run_config(cfg: Config, *, overwrite: bool = False, quiet: bool = True, sche
             report.written += w
             say(f"  netcdf: wrote {len(w)} stack(s)")
         if cfg.output.quicklooks:
-            w = run_quicklooks(plan, report)
+            w = run_quicklooks(plan, report, overwrite=overwrite)
             report.written += w
             say(f"  quicklooks: wrote {len(w)} PNG(s)")
     finally:
@@ -235,28 +235,42 @@ def run_netcdf(plan: Plan) -> list[Path]:
 
 
 # ---------------------------------------------------------------- quicklooks
-def run_quicklooks(plan: Plan, report: RunReport) -> list[Path]:
-    from .quicklook import write_quicklook
+def _quicklook_args(plan: Plan, path: Path) -> dict:
+    tags = read_tags(path)
+    name = tags.get("quantity", path.stem)
+    stat = tags.get("statistic")
+    base = name.split()[0]
+    when = tags.get("time", "").replace("T", " ").replace("Z", " UTC")
+    title = f"{name.replace('_', ' ')}  {when}".strip()
+    if tags.get("time_kind") == "days" and tags.get("daily_total"):
+        title += f" ({tags['daily_total']})"
+    return dict(title=title, units=tags.get("units", ""),
+                diverging=base in ("net_radiation", "net_longwave") and stat not in ("count", "std"),
+                categorical_bits=QUALITY_BITS if base == "quality" else None)
 
+
+def _draw(item) -> None:
+    from .quicklook import write_quicklook
+    tif, png, kwargs, zones = item
+    write_quicklook(tif, png, zones=zones, **kwargs)
+
+
+def run_quicklooks(plan: Plan, report: RunReport, *, overwrite: bool = False) -> list[Path]:
+    """One PNG per GeoTIFF product, skipping PNGs newer than their product.
+
+    """
     zones = None
     if plan.cfg.zones is not None:
         from .zones import read_zones
         zones = read_zones(plan.cfg.zones.path, plan.cfg.zones.id, plan.grid)
-    written = []
+    (plan.out / "quicklooks").mkdir(parents=True, exist_ok=True)
+    items, written = [], []
     for path in sorted({p for p in report.paths if p.suffix == ".tif"}):
-        tags = read_tags(path)
-        name = tags.get("quantity", path.stem)
-        kind = tags.get("time_kind", "")
-        stat = tags.get("statistic")
-        base = name.split()[0]
-        diverging = base in ("net_radiation", "net_longwave") and stat not in ("count", "std")
-        when = tags.get("time", "").replace("T", " ").replace("Z", " UTC")
-        title = f"{name.replace('_', ' ')}  {when}".strip()
-        if kind == "days" and tags.get("daily_total"):
-            title += f" ({tags['daily_total']})"
         png = plan.out / "quicklooks" / f"{path.stem}.png"
-        png.parent.mkdir(parents=True, exist_ok=True)
-        write_quicklook(str(path), str(png), title=title, units=tags.get("units", ""), diverging=diverging,
-                        zones=zones, categorical_bits=QUALITY_BITS if base == "quality" else None)
         written.append(png)
+        if not overwrite and png.exists() and png.stat().st_mtime_ns >= path.stat().st_mtime_ns:
+            continue
+        items.append((str(path), str(png), _quicklook_args(plan, path), zones))
+    for item in items:
+        _draw(item)
     return written
