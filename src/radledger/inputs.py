@@ -110,14 +110,28 @@ class LayerSource:
             raw += b
         return raw
 
-    def read_sample(self, max_pixels: int = 256) -> np.ndarray:
-        """A decimated, decoded sample of the whole file (uses overviews where present)."""
+    def read_sample(self, max_pixels: int = 256, blocks: int = 3) -> np.ndarray:
+        """A small decoded sample of the file, cheap whatever its size.
+
+        Uses the smallest overview when the file has overviews; otherwise reads
+        ``blocks x blocks`` of its internal blocks spread over the raster
+        (a decimated read of a file without overviews would decompress every
+        block).
+        """
         with gdal_env():
             ds = open_dataset(self.gdal_path, self.path)
-            f = max(1, int(np.ceil(max(ds.width, ds.height) / max_pixels)))
-            shape = (max(1, ds.height // f), max(1, ds.width // f))
             try:
-                raw = ds.read(1, out_shape=shape, resampling=Resampling.nearest).astype(np.float32)
+                if ds.overviews(1):
+                    f = max(1, int(np.ceil(max(ds.width, ds.height) / max_pixels)))
+                    shape = (max(1, ds.height // f), max(1, ds.width // f))
+                    raw = ds.read(1, out_shape=shape, resampling=Resampling.nearest).astype(np.float32)
+                else:
+                    bh, bw = ds.block_shapes[0]
+                    bh, bw = min(bh, 256, ds.height), min(bw, 256, ds.width)
+                    rows = np.unique(np.linspace(0, ds.height - bh, blocks).astype(int))
+                    cols = np.unique(np.linspace(0, ds.width - bw, blocks).astype(int))
+                    raw = np.concatenate([ds.read(1, window=Window(c, r, bw, bh)).astype(np.float32).ravel()
+                                          for r in rows for c in cols])
             except RasterioIOError as exc:
                 raise InputError(f"{self.path}: read failed ({_short(exc)}); the file may be truncated or "
                                  f"corrupt - re-download or re-export it") from None

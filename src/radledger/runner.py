@@ -56,6 +56,7 @@ def run_config(cfg: Config, *, overwrite: bool = False, quiet: bool = True, sche
     report = RunReport(plan)
     show_progress = not quiet and sys.stderr.isatty()
     engine = Engine(scheduler, progress=show_progress)
+    created = _missing_dirs(cfg.output.directory)
     try:
         cfg.output.directory.mkdir(parents=True, exist_ok=True)
         stale = sweep_partials(cfg.output.directory)
@@ -88,6 +89,9 @@ def run_config(cfg: Config, *, overwrite: bool = False, quiet: bool = True, sche
             w = run_quicklooks(plan, report, overwrite=overwrite)
             report.written += w
             say(f"  quicklooks: wrote {len(w)} PNG(s)")
+    except BaseException:
+        _remove_empty(cfg.output.directory, created)
+        raise
     finally:
         engine.close()
     report.seconds = time.monotonic() - t0
@@ -96,6 +100,32 @@ def run_config(cfg: Config, *, overwrite: bool = False, quiet: bool = True, sche
         say(f"done in {report.seconds:.1f} s: {len(report.written)} written, {len(report.skipped)} up to date, "
             f"under {cfg.output.directory}")
     return report
+
+
+def _missing_dirs(directory: Path) -> list[Path]:
+    """``directory`` and those of its parents that do not exist yet (outermost last)."""
+    out = []
+    d = Path(directory)
+    while not d.exists() and d.parent != d:
+        out.append(d)
+        d = d.parent
+    return out
+
+
+def _remove_empty(directory: Path, created: list[Path]) -> None:
+    """After a failed run: remove empty product folders, and folders this run created."""
+    d = Path(directory)
+    if d.exists():
+        for sub in sorted((p for p in d.rglob("*") if p.is_dir()), key=lambda p: len(p.parts), reverse=True):
+            try:
+                sub.rmdir()
+            except OSError:
+                pass
+    for p in created:
+        try:
+            p.rmdir()
+        except OSError:
+            break
 
 
 # ---------------------------------------------------------------- composites
