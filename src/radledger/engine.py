@@ -20,6 +20,8 @@ from .gdalenv import gdal_options
 
 __all__ = ["Engine", "apply_gdal_process_settings"]
 
+CONNECT_TIMEOUT = os.environ.get("RADLEDGER_SCHEDULER_TIMEOUT", "10s")   # time to reach --scheduler
+
 
 def apply_gdal_process_settings() -> None:
     """Process-wide GDAL settings read once at GDAL start (the block cache size)."""
@@ -50,7 +52,7 @@ class Engine:
         if self.address:
             try:
                 from distributed import Client
-                self.client = Client(self.address, timeout="20s", set_as_default=False)
+                self.client = Client(self.address, timeout=CONNECT_TIMEOUT, set_as_default=False)
             except (OSError, TimeoutError) as exc:
                 raise ConfigError(f"--scheduler {self.address}: cannot reach a Dask scheduler there "
                                   f"({exc.__class__.__name__}); start one with `dask scheduler` or drop "
@@ -67,13 +69,20 @@ class Engine:
                 pass
 
     @property
+    def distributed(self) -> bool:
+        return self.client is not None
+
+    @property
     def kind(self) -> str:
         return f"distributed ({self.address})" if self.client else f"local threads ({os.cpu_count()})"
 
     def lock(self, name: str):
         if self.client is not None:
             from distributed import Lock
-            return Lock(name, client=self.client)
+            try:  # distributed < 2024 took the client; newer ones find it when unpickled on a worker
+                return Lock(name, client=self.client)
+            except TypeError:
+                return Lock(name)
         return self._locks.setdefault(name, threading.Lock())
 
     def compute(self, *things, label: str = ""):

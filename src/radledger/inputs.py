@@ -37,6 +37,10 @@ INTERNAL_UNIT_OF = {
 }
 CATEGORICAL = ("land_cover",)
 
+# rasterio warns about the georeferencing of its temporary in-memory warp target, whose transform
+# and CRS are in fact given; a process-wide filter, since catch_warnings is not thread-safe
+warnings.filterwarnings("ignore", category=NotGeoreferencedWarning, module="rasterio.warp")
+
 
 @dataclass(frozen=True)
 class LayerSource:
@@ -80,16 +84,12 @@ class LayerSource:
         out = np.full((h, w), np.nan, dtype=np.float32)
         if not self._overlaps(ds, grid, window):
             return out
-        with warnings.catch_warnings():
-            # rasterio warns about the georeferencing of its temporary in-memory target; the
-            # target's transform and CRS are given explicitly here
-            warnings.simplefilter("ignore", NotGeoreferencedWarning)
-            reproject(
-                source=rasterio.band(ds, 1), destination=out,
-                src_nodata=nodata, dst_transform=grid.window_transform(window), dst_crs=grid.crs,
-                dst_nodata=np.nan, resampling=Resampling[self.resampling], init_dest_nodata=True,
-                num_threads=1,
-            )
+        reproject(
+            source=rasterio.band(ds, 1), destination=out,
+            src_nodata=nodata, dst_transform=grid.window_transform(window), dst_crs=grid.crs,
+            dst_nodata=np.nan, resampling=Resampling[self.resampling], init_dest_nodata=True,
+            num_threads=1,
+        )
         return out
 
     @staticmethod

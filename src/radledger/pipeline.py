@@ -137,7 +137,7 @@ def run_job(plan: Plan, job: Job, engine: Engine, *, overwrite: bool = False) ->
                                  compression=plan.cfg.output.compression))
     try:
         for f in files:
-            f.create()
+            f.create(keep_open=not engine.distributed)
         sinks = [f.sink(engine.lock(f.intermediate)) for f in files]
         store = da.store([stack[i] for i in range(len(names))], sinks, lock=False, compute=False)
         stats = {n: _summary(stack[i], n) for i, n in enumerate(names)}

@@ -184,7 +184,7 @@ def run_composite(plan: Plan, comp: CompositeSpec, engine: Engine, *, overwrite:
         sources.append(arrays[s])
     try:
         for f in files:
-            f.create()
+            f.create(keep_open=not engine.distributed)
         store = da.store(sources, [f.sink(engine.lock(f.intermediate)) for f in files], lock=False,
                          compute=False)
         engine.compute(store, label=f"composite {comp.name}")

@@ -113,7 +113,13 @@ class ProductFile:
         self._lock = threading.Lock()
 
     # -- stage 1: the tiled intermediate, open for block writes
-    def create(self) -> None:
+    def create(self, *, keep_open: bool = True) -> None:
+        """Create the intermediate.  ``keep_open`` (local runs): threads write through this handle.
+
+        On a cluster the file is closed at once so workers can reopen it ``r+``:
+        a handle held open here would keep the header in memory and, when
+        closed, rewrite the tile index over what the workers wrote.
+        """
         self.final.parent.mkdir(parents=True, exist_ok=True)
         nodata = QUALITY_NODATA if self.dtype == "uint8" else np.nan
         with gdal_env():
@@ -122,7 +128,10 @@ class ProductFile:
                                nodata=nodata, **_INTERMEDIATE)
         ds.update_tags(**self.tags)
         ds.set_band_description(1, self.band_description)
-        _open_for_write[self.intermediate] = ds
+        if keep_open:
+            _open_for_write[self.intermediate] = ds
+        else:
+            ds.close()
 
     def sink(self, lock=None) -> WindowSink:
         return WindowSink(self.intermediate, lock if lock is not None else self._lock, self.dtype)
