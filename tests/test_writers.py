@@ -9,7 +9,7 @@ import rasterio
 from dask.callbacks import Callback
 
 from radledger.config import load_config
-from radledger.pipeline import job_stack
+from radledger.pipeline import job_graph
 from radledger.plan import make_plan
 from radledger.runner import run_config
 
@@ -67,10 +67,11 @@ def test_building_the_graph_computes_nothing(tmp_path):
         raise AssertionError("something was computed while building the graph")
 
     with Count(), dask.config.set(scheduler=refuse):
-        stack = job_stack(plan.jobs[0], plan.grid)
-        assert stack.shape == (4, 260, 300)
-        assert stack.chunks[1:] == plan.grid.chunks
+        job = plan.jobs[0]
+        dsk, keys = job_graph(job, plan.grid, tuple(job.outputs), sinks={})
+        assert len(keys) == len(list(plan.grid.windows())) == 9     # one task per chunk (3 x 3)
     assert executed == []
+    assert not (tmp_path / "out").exists()
 
 
 def test_failed_run_leaves_nothing_at_final_paths(tmp_path, monkeypatch):
@@ -91,3 +92,30 @@ def test_failed_run_leaves_nothing_at_final_paths(tmp_path, monkeypatch):
     out = tmp_path / "out"
     leftovers = [p for p in out.rglob("*") if p.is_file()]
     assert leftovers == []
+
+
+def test_overviews_average_the_full_resolution_ignoring_nan(big_run):
+    path = big_run / f"net_radiation_{STAMP}.tif"
+    with rasterio.open(path) as ds:
+        full = ds.read(1).astype(float)
+    with rasterio.open(path, overview_level=0) as ov:      # GDAL's view of the first overview
+        level2 = ov.read(1)
+    h, w = full.shape
+    pad = np.full((-(-h // 2) * 2, -(-w // 2) * 2), np.nan)
+    pad[:h, :w] = full
+    blocks = pad.reshape(pad.shape[0] // 2, 2, pad.shape[1] // 2, 2)
+    with np.errstate(invalid="ignore"):
+        import warnings
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)
+            expected = np.nanmean(blocks, axis=(1, 3))          # NumPy's NaN-ignoring mean (= GDAL AVERAGE)
+    assert level2.shape == expected.shape
+    np.testing.assert_allclose(level2, expected, rtol=1e-6, equal_nan=True)
+
+
+def test_quality_overviews_take_a_pixel_not_an_average(big_run):
+    with rasterio.open(big_run / f"quality_{STAMP}.tif", overview_level=0) as ov:
+        values = set(np.unique(ov.read(1)).tolist())
+    with rasterio.open(big_run / f"quality_{STAMP}.tif") as ds:
+        full = set(np.unique(ds.read(1)).tolist())
+    assert values <= full

@@ -96,6 +96,18 @@ class Engine:
                 return dask.compute(*things, scheduler="threads")
         return dask.compute(*things, scheduler="threads")
 
+    def get(self, dsk: dict, keys: list, *, label: str = "") -> list:
+        """Compute the raw task graph ``dsk`` for ``keys`` (one task per chunk)."""
+        if self.client is not None:
+            if self.progress:
+                print(f"  {label}: running on {self.address}", file=self.stream)
+            return list(self.client.get(dsk, keys))
+        from dask.threaded import get
+        if self.progress:
+            with _Progress(label, self.stream):
+                return list(get(dsk, keys))
+        return list(get(dsk, keys))
+
     def close(self) -> None:
         if self.client is not None:
             self.client.close()

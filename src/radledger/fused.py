@@ -19,7 +19,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .kernels import PHYSICAL_RANGES
+from .ranges import PHYSICAL_RANGES
 from .physics.constants import STEFAN_BOLTZMANN
 from .products import QUALITY_BITS
 
@@ -43,23 +43,45 @@ def fused_applies(params, layers) -> bool:
 _R = PHYSICAL_RANGES
 _MISSING = QUALITY_BITS["input_missing"]
 _RANGE = QUALITY_BITS["out_of_range"]
+_DEFAULT = QUALITY_BITS["emissivity_default"]
 # 1.24 (e_hPa / T)^(1/7) with e in kPa: 1.24 * 10^(1/7) (e_kPa / T)^(1/7)  (Brutsaert 1975, eq. 11)
 _BRUTSAERT = 1.24 * 10.0 ** (1.0 / 7.0)
 
 
-def _loop(albedo, ts, ta, ea, rs, eps_s, rn, rns, rnl, q,
+def _loop(albedo, ts, ta, ea, rs, classes, lut, unknown_value, rn, rns, rnl, q,
           a_lo, a_hi, t_lo, t_hi, ta_lo, ta_hi, e_lo, e_hi, r_lo, r_hi, sigma, k):
+    """One pass over a chunk; returns the number of pixels whose class the table lacks.
+
+    float32 arithmetic throughout (inputs are float32; the products are written
+    as float32): the error against the float64 NumPy kernel stays below
+    1e-3 W m-2 (tests/test_fused.py) and the 1/7 power is about twice as fast.
+    """
     n = albedo.size
     nan = np.float32(np.nan)
+    one = np.float32(1.0)
+    seventh = np.float32(1.0 / 7.0)
+    sig = np.float32(sigma)
+    kk = np.float32(k)
+    nlut = lut.size
+    unknown = 0
     for i in range(n):
         a = albedo[i]
         t = ts[i]
         tair = ta[i]
         e = ea[i]
         s = rs[i]
-        em = eps_s[i]
+        c = classes[i]
         flag = 0
-        if a != a or t != t or tair != tair or e != e or s != s or em != em:
+        if c != c:
+            em = nan
+        else:
+            ci = int(c)
+            em = lut[ci] if 0 <= ci < nlut else nan
+            if em != em:
+                unknown += 1
+                em = unknown_value
+                flag |= _DEFAULT
+        if a != a or t != t or tair != tair or e != e or s != s or c != c:
             flag |= _MISSING
         bad = False
         if a < a_lo or a > a_hi:
@@ -79,37 +101,53 @@ def _loop(albedo, ts, ta, ea, rs, eps_s, rn, rns, rnl, q,
             s = nan
         if bad:
             flag |= _RANGE
-        net_sw = (1.0 - a) * s
+        net_sw = (one - a) * s
         t2 = t * t
         ta2 = tair * tair
-        eps_sky = k * (e / tair) ** (1.0 / 7.0)
-        net_lw = em * sigma * (t2 * t2 - eps_sky * ta2 * ta2)
+        eps_sky = kk * (e / tair) ** seventh
+        net_lw = em * sig * (t2 * t2 - eps_sky * (ta2 * ta2))
         rn[i] = net_sw - net_lw
         rns[i] = net_sw
         rnl[i] = net_lw
         q[i] = flag
+    return unknown
 
 
 if numba is not None:
-    _loop_jit = numba.njit(nogil=True, cache=True, fastmath=False, error_model="numpy")(_loop)
+    _loop_jit = numba.njit(nogil=True, cache=True, error_model="numpy")(_loop)
 else:  # pragma: no cover
     _loop_jit = None
 
 
-def fused_scene(arrays: dict[str, np.ndarray], eps_s: np.ndarray, params) -> dict[str, np.ndarray]:
+def fused_scene(arrays: dict[str, np.ndarray], params) -> dict[str, np.ndarray]:
     """The fused products of one chunk (see :func:`fused_applies`)."""
+    from .kernels import resolve_unknown_classes
+
     shape = arrays["albedo"].shape
     flat = {k: np.ascontiguousarray(arrays[k], dtype=np.float32).ravel()
             for k in ("albedo", "surface_temperature", "air_temperature", "vapour_pressure", "shortwave_down")}
-    eps = np.ascontiguousarray(np.broadcast_to(eps_s, shape), dtype=np.float32).ravel()
+    if params.emissivity_constant is not None:
+        classes = np.zeros(flat["albedo"].size, np.float32)
+        lut = np.array([params.emissivity_constant], np.float32)
+    else:
+        classes = np.ascontiguousarray(arrays["land_cover"], dtype=np.float32).ravel()
+        lut = np.ascontiguousarray(params.emissivity_lut, dtype=np.float32)
+    default = params.emissivity_unknown
     n = flat["albedo"].size
     rn = np.empty(n, np.float32)
     rns = np.empty(n, np.float32)
     rnl = np.empty(n, np.float32)
     q = np.empty(n, np.uint8)
-    _loop_jit(flat["albedo"], flat["surface_temperature"], flat["air_temperature"], flat["vapour_pressure"],
-              flat["shortwave_down"], eps, rn, rns, rnl, q,
-              *_R["albedo"], *_R["surface_temperature"], *_R["air_temperature"], *_R["vapour_pressure"],
-              *_R["shortwave_down"], STEFAN_BOLTZMANN, _BRUTSAERT)
+    unknown = _loop_jit(flat["albedo"], flat["surface_temperature"], flat["air_temperature"],
+                        flat["vapour_pressure"], flat["shortwave_down"], classes, lut,
+                        np.float32(np.nan if default is None else default), rn, rns, rnl, q,
+                        *_R["albedo"], *_R["surface_temperature"], *_R["air_temperature"],
+                        *_R["vapour_pressure"], *_R["shortwave_down"], STEFAN_BOLTZMANN, _BRUTSAERT)
+    if unknown and default is None:
+        c = classes.reshape(shape)
+        eps = lut[np.clip(np.nan_to_num(c, nan=0).astype(np.int64), 0, lut.size - 1)]
+        bad = ~np.isnan(c) & (np.isnan(eps) | (c >= lut.size) | (c < 0))
+        resolve_unknown_classes(None, np.nan_to_num(c, nan=-1).astype(np.int64), bad, params,
+                                np.zeros(shape, np.uint8))
     return {"net_radiation": rn.reshape(shape), "net_shortwave": rns.reshape(shape),
             "net_longwave": rnl.reshape(shape), "quality": q.reshape(shape)}

@@ -3,7 +3,7 @@
 The settings are plain strings so a distributed worker applies exactly the
 same ones as the client.  Costs and reasons:
 
-* ``GDAL_CACHEMAX=128`` (MB): GDAL's block cache defaults to 5 % of RAM
+* ``GDAL_CACHEMAX=96`` (MB): GDAL's block cache defaults to 5 % of RAM
   (1.2 GB on a 24 GB machine) and dominated peak memory in our measurements
   (shared/PERF.md); chunked reads need only the blocks of the chunk in flight.
 * ``GDAL_NUM_THREADS=1`` for reads inside tasks: Dask already runs one task per
@@ -26,7 +26,7 @@ import rasterio
 __all__ = ["GDAL_OPTIONS", "gdal_env", "gdal_options"]
 
 GDAL_OPTIONS: dict[str, str] = {
-    "GDAL_CACHEMAX": "128",
+    "GDAL_CACHEMAX": "96",
     "GDAL_NUM_THREADS": "1",
     "GDAL_DISABLE_READDIR_ON_OPEN": "EMPTY_DIR",
     "CPL_VSIL_CURL_ALLOWED_EXTENSIONS": ".tif,.tiff,.TIF,.TIFF,.vrt,.nc,.ovr",

@@ -13,26 +13,13 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import physics as ph
+from .errors import UnknownClassError
+from .fused import fused_applies, fused_scene
 from .products import QUALITY_BITS
 
 __all__ = ["PHYSICAL_RANGES", "SceneParams", "DayParams", "scene_kernel", "day_kernel", "humidity_to_kpa"]
 
-# Physical ranges after decoding (internal units).  Values outside are set to
-# NaN and flagged `out_of_range`.  Common practice, generous on purpose: they
-# catch wrong decoding and sensor garbage, not unusual weather.
-PHYSICAL_RANGES: dict[str, tuple[float, float]] = {
-    "albedo": (0.0, 1.0),                         # [1]
-    "surface_temperature": (180.0, 373.0),        # [K]
-    "air_temperature": (180.0, 340.0),            # [K]
-    "air_temperature_max": (180.0, 340.0),
-    "air_temperature_min": (180.0, 340.0),
-    "dewpoint_temperature": (160.0, 320.0),
-    "vapour_pressure": (0.0, 8.0),                # [kPa] (e deg at 41 degC is ~7.8 kPa)
-    "relative_humidity": (0.0, 100.0),            # [%]
-    "shortwave_down": (0.0, 1500.0),              # [W m-2] scenes
-    "shortwave_down_day": (0.0, 45.0),            # [MJ m-2 day-1] days (Ra < 45 everywhere)
-    "elevation": (-500.0, 9000.0),                # [m]
-}
+from .ranges import PHYSICAL_RANGES  # noqa: E402  (re-exported)
 
 B = QUALITY_BITS
 CLOUD_FLAG_FRACTION = 0.1   # Crawford-Duchon cloud fraction above which `cloud_corrected` is set
@@ -47,7 +34,9 @@ class SceneParams:
     clear_sky: str = "fao56"
     emissivity_lut: np.ndarray | None = field(default=None, compare=False)
     emissivity_constant: float | None = None
-    default_classes: tuple[int, ...] = ()        # classes given the `unknown` value
+    emissivity_unknown: float | None = None      # for classes not in the table; None = stop with an error
+    land_cover_path: str = ""                    # for the error message
+    emissivity_table: str = ""
     scene_to_day: str = "none"                   # none | sinusoidal | shortwave-ratio
 
     @property
@@ -107,9 +96,22 @@ def _emissivity(arrays: dict, p: SceneParams, quality: np.ndarray) -> np.ndarray
     quality[missing] |= B["input_missing"]
     cls = np.where(missing, -1, lc).astype(np.int64)   # -1 lies outside the LUT -> NaN
     eps = ph.emissivity_from_classes(cls, p.emissivity_lut)
-    if p.default_classes:
-        quality[np.isin(cls, p.default_classes)] |= B["emissivity_default"]
+    unknown = np.isnan(eps) & ~missing
+    if unknown.any():
+        eps = resolve_unknown_classes(eps, cls, unknown, p, quality)
     return eps
+
+
+def resolve_unknown_classes(eps, cls, unknown, p: SceneParams, quality) -> np.ndarray:
+    """Classes the table lacks: the configured default (flagged), or stop naming them."""
+    if p.emissivity_unknown is None:
+        found = sorted(int(c) for c in np.unique(cls[unknown]))
+        shown = ", ".join(str(c) for c in found[:20])
+        raise UnknownClassError(f"{p.land_cover_path}: land-cover classes {shown} are not in the emissivity "
+                                f"table {p.emissivity_table}; add them to the table or set emissivity.unknown "
+                                f"to a default emissivity")
+    quality[unknown] |= B["emissivity_default"]
+    return np.where(unknown, np.float32(p.emissivity_unknown), eps)
 
 
 def scene_kernel(arrays: dict[str, np.ndarray], lon: np.ndarray | None, lat: np.ndarray | None,
@@ -118,9 +120,7 @@ def scene_kernel(arrays: dict[str, np.ndarray], lon: np.ndarray | None, lat: np.
     shape = next(iter(arrays.values())).shape
     q = np.zeros(shape, dtype=np.uint8)
     if fused_applies(p, arrays):
-        eps_s = _emissivity(arrays, p, q)
-        out = fused_scene(arrays, eps_s, p)
-        out["quality"] |= q
+        out = fused_scene(arrays, p)
         if lat is not None:
             ra = ph.extraterrestrial_instant(lat, lon, p.day_of_year, p.utc_hour)
             out["quality"][ra <= 0] |= B["sun_down"]
@@ -197,9 +197,6 @@ def _scene_to_day(rn: np.ndarray, lon, lat, rso, p: SceneParams) -> np.ndarray:
         rso_day = z * ph.extraterrestrial_daily(lat, p.day_of_year)
         day = ph.shortwave_ratio_daily_jackson_1983(rn, rso, rso_day)
     return np.where(rso > 0, day, np.float32(np.nan)).astype(np.float32)
-
-
-from .fused import fused_applies, fused_scene  # noqa: E402  (fused imports PHYSICAL_RANGES from here)
 
 
 def day_kernel(arrays: dict[str, np.ndarray], lat: np.ndarray, p: DayParams) -> dict[str, np.ndarray]:

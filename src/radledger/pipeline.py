@@ -1,9 +1,10 @@
-"""Lazy products for scenes and days, and the run that stores them.
+"""The graph of a scene or day, and the run that computes it.
 
-For each job the graph has one task per chunk: it reads every input window
-once, runs the kernel, and returns all products of that chunk stacked; one
-``dask.compute`` stores every product and the summary statistics from the
-same tasks.  Nothing is computed while the graph is built.
+One task per chunk: it reads every input window once, runs the kernel,
+writes every product (and its overview levels) into the intermediates and
+returns only a few summary numbers.  Nothing large travels between tasks, so
+memory is a couple of chunks per core whatever the scene size, and the same
+graph runs on threads or on a cluster.  Building the graph computes nothing.
 """
 
 from __future__ import annotations
@@ -14,14 +15,14 @@ import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
-import dask.array as da
-from dask.base import tokenize
 import numpy as np
+from dask.base import tokenize
 
 from . import __version__
 from .engine import Engine
 from .grid import TargetGrid
 from .kernels import day_kernel, scene_kernel
+from .overviews import overview_factors, pyramid_block
 from .plan import Job, Plan
 from .products import QUALITY_BITS, product_info
 from .writers import ProductFile, read_tags
@@ -36,38 +37,75 @@ def product_order(job: Job) -> tuple[str, ...]:
     return names
 
 
-def _block(job: Job, grid: TargetGrid, window, names: tuple[str, ...]) -> np.ndarray:
+def chunk_products(job: Job, grid: TargetGrid, window, names: tuple[str, ...]) -> dict[str, np.ndarray]:
+    """Every requested product of one chunk window."""
     arrays = {k: s.read(grid, window) for k, s in job.sources.items()}
-    if job.kind == "scenes":
-        lon, lat = grid.lonlat(window) if job.needs_lonlat else (None, None)
-        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        if job.kind == "scenes":
+            lon, lat = grid.lonlat(window) if job.needs_lonlat else (None, None)
             out = scene_kernel(arrays, lon, lat, job.params)
-    else:
-        _, lat = grid.lonlat(window)
-        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        else:
+            _, lat = grid.lonlat(window)
             out = day_kernel(arrays, lat, job.params)
+    return {n: out[n] for n in names}
+
+
+def _chunk_task(job: Job, grid: TargetGrid, window, names, sinks, factors) -> dict:
+    """Compute one chunk, write it (and its overview blocks), return its summary."""
+    products = chunk_products(job, grid, window, names)
+    r0, c0 = int(window.row_off), int(window.col_off)
     h, w = int(window.height), int(window.width)
-    stack = np.empty((len(names), h, w), dtype=np.float32)
-    for i, n in enumerate(names):
-        stack[i] = out[n]
-    return stack
+    summary = {}
+    for n, a in products.items():
+        full, levels = sinks[n]
+        full[slice(r0, r0 + h), slice(c0, c0 + w)] = a
+        if levels:
+            for f, block in _pyramid(a, n, tuple(levels)).items():
+                bh, bw = block.shape
+                levels[f][slice(r0 // f, r0 // f + bh), slice(c0 // f, c0 // f + bw)] = block
+        summary[n] = _chunk_summary(a, n)
+    return summary
 
 
-def job_stack(job: Job, grid: TargetGrid, names: tuple[str, ...] | None = None) -> da.Array:
-    """The lazy (n_products, height, width) float32 stack of a job; builds the graph only.
+def _pyramid(a: np.ndarray, name: str, factors) -> dict[int, np.ndarray]:
+    return {f: v for (_, f), v in pyramid_block(a[None], (name,), factors).items()}
 
-    One task per chunk, written out directly: ``dask.delayed`` would tokenize
-    the job (with its lookup table) once per chunk, which cost more than the
-    chunk's arithmetic on small grids.
+
+def _chunk_summary(a: np.ndarray, name: str) -> tuple:
+    if name == "quality":
+        return (int(np.count_nonzero(a & QUALITY_BITS["out_of_range"])),
+                int(np.count_nonzero(a & QUALITY_BITS["input_missing"])))
+    valid = a[np.isfinite(a)]
+    if not valid.size:
+        return (np.inf, -np.inf, 0.0, 0)
+    return (float(valid.min()), float(valid.max()), float(valid.sum(dtype=np.float64)), int(valid.size))
+
+
+def _merge_summaries(parts: list[dict], names) -> dict[str, dict[str, float]]:
+    out = {}
+    for n in names:
+        vals = [p[n] for p in parts]
+        if n == "quality":
+            out[n] = {"out_of_range": sum(v[0] for v in vals), "input_missing": sum(v[1] for v in vals)}
+        else:
+            count = sum(v[3] for v in vals)
+            out[n] = {"min": min(v[0] for v in vals) if count else np.nan,
+                      "max": max(v[1] for v in vals) if count else np.nan,
+                      "mean": sum(v[2] for v in vals) / count if count else np.nan, "valid": count}
+    return out
+
+
+def job_graph(job: Job, grid: TargetGrid, names: tuple[str, ...], sinks: dict, factors=()) -> tuple[dict, list]:
+    """The task graph of a job (one task per chunk) and its output keys; computes nothing.
+
+    Written out directly: ``dask.delayed`` would traverse and tokenize the job
+    (with its lookup table) once per chunk, which cost more than the chunk's
+    arithmetic on small grids.
     """
-    names = names or product_order(job)
     name = f"radledger-{job.kind}-{job.label}-" + tokenize(job.settings_hash, names, grid.describe())
-    ncols = len(grid.chunks[1])
-    dsk = {}
-    for k, win in enumerate(grid.windows()):
-        dsk[(name, 0, k // ncols, k % ncols)] = (_block, job, grid, win, names)
-    return da.Array(dsk, name, chunks=((len(names),),) + grid.chunks, dtype=np.float32,
-                    meta=np.empty((0, 0, 0), np.float32))
+    dsk = {(name, k): (_chunk_task, job, grid, win, names, sinks, factors)
+           for k, win in enumerate(grid.windows())}
+    return dsk, list(dsk)
 
 
 @dataclass
@@ -121,7 +159,7 @@ def run_job(plan: Plan, job: Job, engine: Engine, *, overwrite: bool = False) ->
     if not todo:
         return result
     names = tuple(todo)
-    stack = job_stack(job, plan.grid, names)
+    in_task = tuple(f for f in overview_factors(plan.grid.width, plan.grid.height) if plan.grid.chunk % f == 0)
     files = []
     for n in names:
         kind = "days" if n == "daily_net_radiation" else job.kind
@@ -134,33 +172,25 @@ def run_job(plan: Plan, job: Job, engine: Engine, *, overwrite: bool = False) ->
                      "time": job.when.date().isoformat(), "time_kind": "days"}
         files.append(ProductFile(final=todo[n], grid=plan.grid, dtype=info.dtype,
                                  tags=_tags(plan, job, n, kind, extra), band_description=info.long_name,
-                                 compression=plan.cfg.output.compression))
+                                 compression=plan.cfg.output.compression, in_task=in_task))
     try:
         for f in files:
             f.create(keep_open=not engine.distributed)
-        sinks = [f.sink(engine.lock(f.intermediate)) for f in files]
-        store = da.store([stack[i] for i in range(len(names))], sinks, lock=False, compute=False)
-        stats = {n: _summary(stack[i], n) for i, n in enumerate(names)}
+        sinks = {n: (f.sink(engine.lock(f.intermediate)),
+                     {fac: f.sink(engine.lock(f.level_files[fac]), factor=fac) for fac in f.in_task})
+                 for n, f in zip(names, files)}
+        dsk, keys = job_graph(job, plan.grid, names, sinks, in_task)
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", RuntimeWarning)
-            _, stats = engine.compute(store, stats, label=f"{job.kind[:-1]} {job.label}")
+            parts = engine.get(dsk, keys, label=f"{job.kind[:-1]} {job.label}")
         for f in files:
             result.written.append(f.finish())
     except BaseException:
         for f in files:
             f.abort()
         raise
-    result.summary = {n: {k: float(v) for k, v in s.items()} for n, s in stats.items()}
+    result.summary = _merge_summaries(parts, names)
     return result
-
-
-def _summary(a: da.Array, name: str) -> dict:
-    if name == "quality":
-        q = a.astype(np.uint8)
-        return {"out_of_range": ((q & QUALITY_BITS["out_of_range"]) > 0).sum(),
-                "input_missing": ((q & QUALITY_BITS["input_missing"]) > 0).sum()}
-    return {"min": da.nanmin(a), "mean": da.nanmean(a), "max": da.nanmax(a),
-            "valid": da.isfinite(a).sum()}
 
 
 def print_summary(results: list[JobResult], stream=sys.stdout) -> None:

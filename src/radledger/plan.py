@@ -123,7 +123,15 @@ def settings_hash(*parts) -> str:
     return hashlib.sha256(text.encode()).hexdigest()[:20]
 
 
-def make_plan(cfg: Config, *, inspect_inputs: bool = True, force: bool = False) -> Plan:
+def unknown_classes_error(cfg: Config, classes) -> InputError:
+    shown = ", ".join(str(c) for c in list(classes)[:20]) + (" ..." if len(classes) > 20 else "")
+    return InputError(f"{cfg.static.get('land_cover')}: land-cover classes {shown} are not in the emissivity "
+                      f"table {cfg.emissivity.table}; add them to the table or set emissivity.unknown to a "
+                      f"default emissivity")
+
+
+def make_plan(cfg: Config, *, inspect_inputs: bool = True, force: bool = False,
+              scan_classes: bool = True) -> Plan:
     """Build the plan; raise :class:`Problems` (or one error) naming every problem found."""
     problems: list[RadledgerError] = []
     try:
@@ -151,29 +159,23 @@ def make_plan(cfg: Config, *, inspect_inputs: bool = True, force: bool = False) 
         sources_cache[key] = src
         return src
 
-    # emissivity
+    # emissivity: the lookup holds NaN for classes the table lacks; the kernels then use
+    # emissivity.unknown (flagged) or stop with the classes named.  `check` (scan_classes)
+    # also scans the whole land cover first, to name every missing class at once.
     lut = None
-    default_classes: tuple[int, ...] = ()
+    unknown = None
     if cfg.scenes and cfg.emissivity.constant is None:
         try:
             table = read_emissivity_table(cfg.emissivity.table)
             unknown = None if cfg.emissivity.unknown == "error" else float(cfg.emissivity.unknown)
-            lut = build_lookup(table, unknown=unknown)
+            lut = build_lookup(table, unknown=None)
             lc = source("land_cover", cfg.static["land_cover"], "scenes")
-            if lc is not None and inspect_inputs:
+            if lc is not None and inspect_inputs and scan_classes:
                 present = land_cover_classes(lc, grid)
                 plan.classes_present = present
                 absent = missing_classes(present, table)
                 if absent and unknown is None:
-                    shown = ", ".join(str(c) for c in absent[:20]) + (" ..." if len(absent) > 20 else "")
-                    problems.append(InputError(
-                        f"{cfg.static['land_cover']}: land-cover classes {shown} are not in the emissivity "
-                        f"table {cfg.emissivity.table}; add them to the table or set emissivity.unknown to "
-                        f"a default emissivity"))
-                default_classes = tuple(absent)
-                if max(present, default=0) >= len(lut):
-                    fill = np.nan if unknown is None else unknown
-                    lut = np.concatenate([lut, np.full(max(present) + 1 - len(lut), fill, lut.dtype)])
+                    problems.append(unknown_classes_error(cfg, absent))
         except RadledgerError as exc:
             problems.append(exc)
     plan.lut = lut
@@ -196,7 +198,9 @@ def make_plan(cfg: Config, *, inspect_inputs: bool = True, force: bool = False) 
                                                              methods.scene_to_day != "none" else ()),
                              sky_model=methods.sky_emissivity, clouds=methods.clouds,
                              clear_sky=methods.clear_sky_shortwave, emissivity_lut=lut,
-                             emissivity_constant=cfg.emissivity.constant, default_classes=default_classes,
+                             emissivity_constant=cfg.emissivity.constant, emissivity_unknown=unknown,
+                             land_cover_path=cfg.static.get("land_cover", ""),
+                             emissivity_table=cfg.emissivity.table or "",
                              scene_to_day=methods.scene_to_day)
         h = settings_hash(common, [_file_fingerprint(s.path) + [s.scale, s.offset, s.nodata, s.factor, s.shift,
                                                              s.resampling] for s in srcs.values()],

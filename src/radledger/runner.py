@@ -20,6 +20,7 @@ import numpy as np
 from . import __version__
 from .config import Config, CompositeSpec, load_config
 from .engine import Engine
+from .errors import UnknownClassError
 from .pipeline import JobResult, is_current, print_summary, run_job
 from .plan import Plan, make_plan, settings_hash
 from .products import QUALITY_BITS, product_info
@@ -52,7 +53,9 @@ def run_config(cfg: Config, *, overwrite: bool = False, quiet: bool = True, sche
                force: bool = False, stream=sys.stdout) -> RunReport:
     t0 = time.monotonic()
     say = (lambda *a: None) if quiet else (lambda *a: print(*a, file=stream, flush=True))
-    plan = make_plan(cfg, force=force)
+    # the whole-land-cover class scan is left to `check`; a run meets unknown classes in its
+    # chunk tasks and then scans once, to name every missing class (see _name_all_classes)
+    plan = make_plan(cfg, force=force, scan_classes=False)
     report = RunReport(plan)
     show_progress = not quiet and sys.stderr.isatty()
     engine = Engine(scheduler, progress=show_progress)
@@ -64,7 +67,10 @@ def run_config(cfg: Config, *, overwrite: bool = False, quiet: bool = True, sche
             say(f"removed {len(stale)} temporary file(s) left by an interrupted run")
         say(f"radledger {__version__}: {len(plan.jobs)} job(s) on {engine.kind}; grid {plan.grid.describe()}")
         for job in plan.jobs:
-            r = run_job(plan, job, engine, overwrite=overwrite)
+            try:
+                r = run_job(plan, job, engine, overwrite=overwrite)
+            except UnknownClassError:
+                raise _name_all_classes(plan) from None
             report.results.append(r)
             report.written += r.written
             report.skipped += r.skipped
@@ -100,6 +106,17 @@ def run_config(cfg: Config, *, overwrite: bool = False, quiet: bool = True, sche
         say(f"done in {report.seconds:.1f} s: {len(report.written)} written, {len(report.skipped)} up to date, "
             f"under {cfg.output.directory}")
     return report
+
+
+def _name_all_classes(plan: Plan) -> Exception:
+    from .physics.emissivity import missing_classes
+    from .plan import land_cover_classes, unknown_classes_error
+    from .tables import read_emissivity_table
+
+    cfg = plan.cfg
+    src = next(j.sources["land_cover"] for j in plan.jobs if "land_cover" in j.sources)
+    absent = missing_classes(land_cover_classes(src, plan.grid), read_emissivity_table(cfg.emissivity.table))
+    return unknown_classes_error(cfg, absent)
 
 
 def _missing_dirs(directory: Path) -> list[Path]:

@@ -19,18 +19,23 @@ import uuid
 from dataclasses import dataclass
 from pathlib import Path
 
+from xml.sax.saxutils import escape
+
 import numpy as np
 import rasterio
+from affine import Affine
 import rasterio.shutil
 from rasterio.windows import Window
 
 from .gdalenv import gdal_env
 from .grid import TargetGrid
+from .overviews import level_shape, overview_factors, reduce_level
 from .products import QUALITY_NODATA
 
 __all__ = ["COG_DEFAULTS", "ProductFile", "WindowSink", "sweep_partials", "read_tags", "PARTIAL_MARK"]
 
 PARTIAL_MARK = ".radledger-partial"
+QUOTE = {'"': "&quot;"}
 
 # The one place for COG settings.  ZSTD level 1: ~5x faster than the default
 # level 9 for a ~3 % larger file (PERF.md); predictor 3 (floating point) or 2
@@ -97,64 +102,136 @@ class WindowSink:
 
 @dataclass
 class ProductFile:
-    """One product on its way to ``final``: intermediate -> COG -> rename."""
+    """One product on its way to ``final``: intermediates -> COG -> rename.
+
+    ``in_task`` lists the overview factors the chunk tasks write (see
+    overviews.py); the remaining factors GDAL would add are averaged here from
+    the coarsest of them.  With no in-task factor the COG driver makes the
+    overviews itself.
+    """
     final: Path
     grid: TargetGrid
     dtype: str
     tags: dict[str, str]
     band_description: str
     compression: str
+    in_task: tuple[int, ...] = ()
 
     def __post_init__(self):
         token = f"{os.getpid()}-{uuid.uuid4().hex[:8]}"
         self.final = Path(self.final)
-        self.intermediate = str(self.final.parent / f".{self.final.stem}{PARTIAL_MARK}-{token}.raw.tif")
-        self.partial_cog = str(self.final.parent / f".{self.final.stem}{PARTIAL_MARK}-{token}.cog.tif")
+        stem = str(self.final.parent / f".{self.final.stem}{PARTIAL_MARK}-{token}")
+        self.intermediate = f"{stem}.raw.tif"
+        self.partial_cog = f"{stem}.cog.tif"
+        self.vrt = f"{stem}.vrt"
+        self.factors = overview_factors(self.grid.width, self.grid.height)
+        self.in_task = tuple(f for f in self.in_task if f in self.factors)
+        self.level_files = {f: f"{stem}.ov{f}.tif" for f in self.factors}
         self._lock = threading.Lock()
 
-    # -- stage 1: the tiled intermediate, open for block writes
-    def create(self, *, keep_open: bool = True) -> None:
-        """Create the intermediate.  ``keep_open`` (local runs): threads write through this handle.
+    @property
+    def nodata(self):
+        return QUALITY_NODATA if self.dtype == "uint8" else np.nan
 
-        On a cluster the file is closed at once so workers can reopen it ``r+``:
-        a handle held open here would keep the header in memory and, when
-        closed, rewrite the tile index over what the workers wrote.
-        """
-        self.final.parent.mkdir(parents=True, exist_ok=True)
-        nodata = QUALITY_NODATA if self.dtype == "uint8" else np.nan
+    def _create(self, path: str, width: int, height: int, transform, keep_open: bool, tags=None):
         with gdal_env():
-            ds = rasterio.open(self.intermediate, "w", width=self.grid.width, height=self.grid.height,
-                               count=1, dtype=self.dtype, crs=self.grid.crs, transform=self.grid.transform,
-                               nodata=nodata, **_INTERMEDIATE)
-        ds.update_tags(**self.tags)
-        ds.set_band_description(1, self.band_description)
+            ds = rasterio.open(path, "w", width=width, height=height, count=1, dtype=self.dtype,
+                               crs=self.grid.crs, transform=transform, nodata=self.nodata, **_INTERMEDIATE)
+        if tags:
+            ds.update_tags(**tags)
+            ds.set_band_description(1, self.band_description)
         if keep_open:
-            _open_for_write[self.intermediate] = ds
+            _open_for_write[path] = ds
         else:
             ds.close()
 
-    def sink(self, lock=None) -> WindowSink:
-        return WindowSink(self.intermediate, lock if lock is not None else self._lock, self.dtype)
+    # -- stage 1: the tiled intermediates, open for block writes
+    def create(self, *, keep_open: bool = True) -> None:
+        """Create the intermediates.  ``keep_open`` (local runs): threads write through these handles.
+
+        On a cluster the files are closed at once so workers can reopen them
+        ``r+``: a handle held open here would keep the header in memory and,
+        when closed, rewrite the tile index over what the workers wrote.
+        """
+        self.final.parent.mkdir(parents=True, exist_ok=True)
+        self._create(self.intermediate, self.grid.width, self.grid.height, self.grid.transform, keep_open,
+                     self.tags)
+        for f in self.in_task:
+            h, w = level_shape(self.grid.height, self.grid.width, f)
+            self._create(self.level_files[f], w, h, _scaled(self.grid.transform, f), keep_open)
+
+    def sink(self, lock=None, factor: int = 1) -> WindowSink:
+        path = self.intermediate if factor == 1 else self.level_files[factor]
+        return WindowSink(path, lock if lock is not None else self._lock, self.dtype)
 
     def close_intermediate(self) -> None:
-        ds = _open_for_write.pop(self.intermediate, None)
-        if ds is not None and not ds.closed:
-            ds.close()
+        for path in [self.intermediate, *self.level_files.values()]:
+            ds = _open_for_write.pop(path, None)
+            if ds is not None and not ds.closed:
+                ds.close()
 
     # -- stage 2: one compression pass into a COG, then rename into place
     def finish(self) -> Path:
         self.close_intermediate()
+        opts = cog_options(self.compression, self.dtype)
+        source = self.intermediate
+        if self.in_task:
+            self._coarser_levels()
+            self._write_vrt()
+            source = self.vrt
+            opts["OVERVIEWS"] = "FORCE_USE_EXISTING"
         with gdal_env(GDAL_NUM_THREADS="ALL_CPUS"):
-            rasterio.shutil.copy(self.intermediate, self.partial_cog, driver="COG",
-                                 **cog_options(self.compression, self.dtype))
+            rasterio.shutil.copy(source, self.partial_cog, driver="COG", **opts)
         os.replace(self.partial_cog, self.final)
-        _remove(self.intermediate)
+        self._remove_temporaries()
         return self.final
+
+    def _coarser_levels(self) -> None:
+        """Levels beyond the in-task ones, from the coarsest in-task level (small)."""
+        base = max(self.in_task)
+        rest = [f for f in self.factors if f > base]
+        if not rest:
+            return
+        with gdal_env(), rasterio.open(self.level_files[base]) as ds:
+            a = ds.read(1)
+        for f in rest:
+            level = reduce_level(a, f // base, nearest=self.dtype == "uint8")
+            h, w = level.shape
+            self._create(self.level_files[f], w, h, _scaled(self.grid.transform, f), keep_open=False)
+            with gdal_env(), rasterio.open(self.level_files[f], "r+") as ds:
+                ds.write(level, 1)
+
+    def _write_vrt(self) -> None:
+        t = self.grid.transform
+        dtype = {"float32": "Float32", "uint8": "Byte"}[self.dtype]
+        nodata = "nan" if self.dtype != "uint8" else str(QUALITY_NODATA)
+        meta = "".join(f'<MDI key="{escape(k, QUOTE)}">{escape(str(v))}</MDI>' for k, v in self.tags.items())
+        overviews = "".join(
+            f'<Overview><SourceFilename relativeToVRT="1">{escape(os.path.basename(self.level_files[f]))}'
+            f'</SourceFilename><SourceBand>1</SourceBand></Overview>' for f in self.factors)
+        xml = (f'<VRTDataset rasterXSize="{self.grid.width}" rasterYSize="{self.grid.height}">'
+               f'<SRS>{escape(self.grid.crs.to_wkt())}</SRS>'
+               f'<GeoTransform>{t.c!r}, {t.a!r}, {t.b!r}, {t.f!r}, {t.d!r}, {t.e!r}</GeoTransform>'
+               f'<Metadata>{meta}</Metadata>'
+               f'<VRTRasterBand dataType="{dtype}" band="1"><Description>{escape(self.band_description)}'
+               f'</Description><NoDataValue>{nodata}</NoDataValue>'
+               f'<SimpleSource><SourceFilename relativeToVRT="1">{escape(os.path.basename(self.intermediate))}'
+               f'</SourceFilename><SourceBand>1</SourceBand></SimpleSource>{overviews}</VRTRasterBand>'
+               f'</VRTDataset>')
+        Path(self.vrt).write_text(xml, encoding="utf-8")
+
+    def _remove_temporaries(self) -> None:
+        for path in [self.intermediate, self.vrt, self.partial_cog, *self.level_files.values()]:
+            _remove(path)
 
     def abort(self) -> None:
         self.close_intermediate()
-        _remove(self.intermediate)
-        _remove(self.partial_cog)
+        self._remove_temporaries()
+
+
+def _scaled(t: Affine, f: int) -> Affine:
+    """The transform of an overview ``f`` times coarser (same origin)."""
+    return Affine(t.a * f, t.b * f, t.c, t.d * f, t.e * f, t.f)
 
 
 def _remove(path: str) -> None:

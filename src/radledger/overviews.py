@@ -1,0 +1,88 @@
+"""COG overviews computed inside the chunk tasks, so the COG driver only compresses.
+
+GDAL's COG driver, asked for ``OVERVIEWS=AUTO``, re-reads the finished
+full-resolution raster to average it down level by level (single-threaded),
+which cost about 40 % of the COG step in our measurements.  Each chunk task
+already holds its products in memory, so it averages them there: factors 2,
+4, 8, ... that divide the chunk edge are exact per chunk; coarser levels (on
+very large grids) are averaged from the coarsest in-task level afterwards,
+which is small.  The averaging ignores NaN as GDAL's ``AVERAGE`` does with a
+NaN nodata; the ``quality`` bits take the nearest pixel (averaging flags
+would invent flags).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["overview_factors", "pyramid_block", "reduce_level", "level_shape"]
+
+BLOCK = 512   # overviews are added until the coarsest fits in one 512-pixel tile (as GDAL's AUTO)
+
+
+def overview_factors(width: int, height: int, block: int = BLOCK) -> tuple[int, ...]:
+    """Factors 2, 4, ... as GDAL's COG driver picks them for ``OVERVIEWS=AUTO``."""
+    out = []
+    f = 1
+    while max(-(-width // f), -(-height // f)) > block:
+        f *= 2
+        out.append(f)
+    return tuple(out)
+
+
+def level_shape(h: int, w: int, f: int) -> tuple[int, int]:
+    return -(-h // f), -(-w // f)
+
+
+def _halve_mean(s: np.ndarray, n: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Sum and count of 2 x 2 cells (edges padded)."""
+    h, w = s.shape
+    H, W = level_shape(h, w, 2)
+    if (H * 2, W * 2) != (h, w):
+        s = np.pad(s, ((0, H * 2 - h), (0, W * 2 - w)))
+        n = np.pad(n, ((0, H * 2 - h), (0, W * 2 - w)))
+    s2 = s.reshape(H, 2, W, 2).sum(axis=(1, 3))
+    n2 = n.reshape(H, 2, W, 2).sum(axis=(1, 3))
+    return s2, n2
+
+
+def _mean_levels(block: np.ndarray, factors) -> dict[int, np.ndarray]:
+    valid = ~np.isnan(block)
+    s = np.where(valid, block, np.float32(0)).astype(np.float64)
+    n = valid.astype(np.int32)
+    out, f = {}, 1
+    for target in factors:
+        while f < target:
+            s, n = _halve_mean(s, n)
+            f *= 2
+        with np.errstate(invalid="ignore", divide="ignore"):
+            out[target] = np.where(n > 0, s / np.maximum(n, 1), np.nan).astype(np.float32)
+    return out
+
+
+def _nearest_levels(block: np.ndarray, factors) -> dict[int, np.ndarray]:
+    h, w = block.shape
+    out = {}
+    for f in factors:
+        H, W = level_shape(h, w, f)
+        rows = np.minimum(np.arange(H) * f + f // 2, h - 1)
+        cols = np.minimum(np.arange(W) * f + f // 2, w - 1)
+        out[f] = block[np.ix_(rows, cols)]
+    return out
+
+
+def pyramid_block(stack: np.ndarray, names: tuple[str, ...], factors: tuple[int, ...]) -> dict:
+    """Overview blocks of one chunk: ``{(product, factor): array}``."""
+    out = {}
+    for i, name in enumerate(names):
+        levels = _nearest_levels(stack[i], factors) if name == "quality" else _mean_levels(stack[i], factors)
+        for f, a in levels.items():
+            out[(name, f)] = a
+    return out
+
+
+def reduce_level(a: np.ndarray, factor: int, *, nearest: bool) -> np.ndarray:
+    """A coarser level from a whole (small) level array."""
+    if nearest:
+        return _nearest_levels(a, (factor,))[factor]
+    return _mean_levels(a, (factor,))[factor]
