@@ -20,7 +20,6 @@ NaN is "no value" everywhere; the kernels never emit all-NaN RuntimeWarnings.
 
 from __future__ import annotations
 
-import calendar
 import os
 from datetime import date
 from pathlib import Path
@@ -31,40 +30,17 @@ import numpy as np
 import rasterio
 from dask.base import tokenize
 
+from .datewindows import COMPOSITE_STATISTICS, SEASONS, season_window  # noqa: F401 (re-exported)
 from .errors import InputError
 from .grid import TargetGrid
 
 __all__ = ["COMPOSITE_STATISTICS", "SEASONS", "LEAF_DATES", "season_window", "composite",
            "read_product", "moments_of_dates", "merge_moments"]
 
-COMPOSITE_STATISTICS = ("mean", "median", "min", "max", "sum", "std", "count", "total")
-
-# season name -> (first month, last month); DJF starts in December of the previous year
-SEASONS = {"DJF": (12, 2), "MAM": (3, 5), "JJA": (6, 8), "SON": (9, 11)}
-
 LEAF_DATES = 8  # dates folded per leaf task (memory: LEAF_DATES x chunk**2 x 4 bytes of input)
 
 # rows of a moments array (see moments_of_dates)
 _N, _MEAN, _M2, _MIN, _MAX = range(5)
-
-
-def season_window(name: str, year: int) -> tuple[date, date]:
-    """First and last day (inclusive) of a meteorological season.
-
-    Parameters
-    ----------
-    name : str
-        ``"DJF"``, ``"MAM"``, ``"JJA"`` or ``"SON"`` (case-insensitive).
-    year : int
-        Calendar year the season ends in [year]; DJF of 2026 runs
-        2025-12-01 .. 2026-02-28.
-    """
-    key = str(name).upper()
-    if key not in SEASONS:
-        raise ValueError(f"unknown season {name!r}; valid: {', '.join(SEASONS)}")
-    first, last = SEASONS[key]
-    start = date(year - 1 if first > last else year, first, 1)
-    return start, date(year, last, calendar.monthrange(year, last)[1])
 
 
 # --- lazy reading --------------------------------------------------------------------------

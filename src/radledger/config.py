@@ -17,7 +17,7 @@ from typing import Any
 
 import yaml
 
-from .composite import COMPOSITE_STATISTICS, SEASONS, season_window
+from .datewindows import COMPOSITE_STATISTICS, SEASONS, season_window
 from .errors import ConfigError, Problems
 from .physics.longwave import CLOUD_MODELS, SKY_EMISSIVITY_MODELS
 from .products import DAY_PRODUCTS, DEFAULT_PRODUCTS, SCENE_PRODUCTS

@@ -115,12 +115,15 @@ def resolve_unknown_classes(eps, cls, unknown, p: SceneParams, quality) -> np.nd
 
 
 def scene_kernel(arrays: dict[str, np.ndarray], lon: np.ndarray | None, lat: np.ndarray | None,
-                 p: SceneParams) -> dict[str, np.ndarray]:
-    """Every scene product of one chunk [W m-2, 1]; see :data:`products.SCENE_PRODUCTS`."""
+                 p: SceneParams, *, reuse: bool = False) -> dict[str, np.ndarray]:
+    """Every scene product of one chunk [W m-2, 1]; see :data:`products.SCENE_PRODUCTS`.
+
+    ``reuse``: the fused path may return per-thread buffers valid until the thread's next call.
+    """
     shape = next(iter(arrays.values())).shape
     q = np.zeros(shape, dtype=np.uint8)
     if fused_applies(p, arrays):
-        out = fused_scene(arrays, p)
+        out = fused_scene(arrays, p, reuse=reuse)
         if lat is not None:
             ra = ph.extraterrestrial_instant(lat, lon, p.day_of_year, p.utc_hour)
             out["quality"][ra <= 0] |= B["sun_down"]

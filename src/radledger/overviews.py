@@ -13,9 +13,10 @@ would invent flags).
 
 from __future__ import annotations
 
+import numba
 import numpy as np
 
-__all__ = ["overview_factors", "pyramid_block", "reduce_level", "level_shape"]
+__all__ = ["overview_factors", "pyramid_block", "reduce_level", "level_shape", "mean_pyramid"]
 
 BLOCK = 512   # overviews are added until the coarsest fits in one 512-pixel tile (as GDAL's AUTO)
 
@@ -58,6 +59,41 @@ def _mean_levels(block: np.ndarray, factors) -> dict[int, np.ndarray]:
         with np.errstate(invalid="ignore", divide="ignore"):
             out[target] = np.where(n > 0, s / np.maximum(n, 1), np.nan).astype(np.float32)
     return out
+
+
+@numba.njit(nogil=True, cache=True)
+def _halve_with_stats(a):
+    """2 x 2 sums and counts of the non-NaN pixels of ``a``, plus min, max, sum, count of its finite ones."""
+    h, w = a.shape
+    s = np.zeros(((h + 1) // 2, (w + 1) // 2), np.float64)
+    n = np.zeros(((h + 1) // 2, (w + 1) // 2), np.int64)
+    lo, hi, tot, cnt = np.inf, -np.inf, 0.0, 0
+    for i in range(h):
+        ii = i >> 1
+        for j in range(w):
+            v = a[i, j]
+            if v == v:
+                s[ii, j >> 1] += v
+                n[ii, j >> 1] += 1
+                if v != np.inf and v != -np.inf:
+                    lo = min(lo, v)
+                    hi = max(hi, v)
+                    tot += v
+                    cnt += 1
+    return s, n, lo, hi, tot, cnt
+
+
+def mean_pyramid(block: np.ndarray, factors) -> tuple[dict[int, np.ndarray], tuple]:
+    """NaN-ignoring mean levels of one block and its (min, max, sum, count) summary, in one pass."""
+    s, n, lo, hi, tot, cnt = _halve_with_stats(np.ascontiguousarray(block, dtype=np.float32))
+    out, f = {}, 2
+    for target in factors:
+        while f < target:
+            s, n = _halve_mean(s, n)
+            f *= 2
+        with np.errstate(invalid="ignore", divide="ignore"):
+            out[target] = np.where(n > 0, s / np.maximum(n, 1), np.nan).astype(np.float32)
+    return out, (float(lo), float(hi), float(tot), int(cnt))
 
 
 def _nearest_levels(block: np.ndarray, factors) -> dict[int, np.ndarray]:

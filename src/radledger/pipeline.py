@@ -22,7 +22,7 @@ from . import __version__
 from .engine import Engine
 from .grid import TargetGrid
 from .kernels import day_kernel, scene_kernel
-from .overviews import overview_factors, pyramid_block
+from .overviews import mean_pyramid, overview_factors, pyramid_block
 from .plan import Job, Plan
 from .products import QUALITY_BITS, product_info
 from .writers import ProductFile, read_tags
@@ -37,13 +37,14 @@ def product_order(job: Job) -> tuple[str, ...]:
     return names
 
 
-def chunk_products(job: Job, grid: TargetGrid, window, names: tuple[str, ...]) -> dict[str, np.ndarray]:
-    """Every requested product of one chunk window."""
+def chunk_products(job: Job, grid: TargetGrid, window, names: tuple[str, ...], *,
+                   reuse: bool = False) -> dict[str, np.ndarray]:
+    """Every requested product of one chunk window (``reuse``: see :func:`kernels.scene_kernel`)."""
     arrays = {k: s.read(grid, window) for k, s in job.sources.items()}
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         if job.kind == "scenes":
             lon, lat = grid.lonlat(window) if job.needs_lonlat else (None, None)
-            out = scene_kernel(arrays, lon, lat, job.params)
+            out = scene_kernel(arrays, lon, lat, job.params, reuse=reuse)
         else:
             _, lat = grid.lonlat(window)
             out = day_kernel(arrays, lat, job.params)
@@ -52,33 +53,25 @@ def chunk_products(job: Job, grid: TargetGrid, window, names: tuple[str, ...]) -
 
 def _chunk_task(job: Job, grid: TargetGrid, window, names, sinks, factors) -> dict:
     """Compute one chunk, write it (and its overview blocks), return its summary."""
-    products = chunk_products(job, grid, window, names)
+    products = chunk_products(job, grid, window, names, reuse=True)   # written out below, at once
     r0, c0 = int(window.row_off), int(window.col_off)
     h, w = int(window.height), int(window.width)
     summary = {}
     for n, a in products.items():
         full, levels = sinks[n]
         full[slice(r0, r0 + h), slice(c0, c0 + w)] = a
-        if levels:
-            for f, block in _pyramid(a, n, tuple(levels)).items():
-                bh, bw = block.shape
-                levels[f][slice(r0 // f, r0 // f + bh), slice(c0 // f, c0 // f + bw)] = block
-        summary[n] = _chunk_summary(a, n)
+        if n == "quality":
+            blocks = pyramid_block(a[None], (n,), tuple(levels)) if levels else {}
+            blocks = {f: v for (_, f), v in blocks.items()}
+            summary[n] = (int(np.count_nonzero(a & QUALITY_BITS["out_of_range"])),
+                          int(np.count_nonzero(a & QUALITY_BITS["input_missing"])))
+        else:
+            blocks, summary[n] = mean_pyramid(a, tuple(levels) or (2,))
+            blocks = {f: blocks[f] for f in levels}
+        for f, block in blocks.items():
+            bh, bw = block.shape
+            levels[f][slice(r0 // f, r0 // f + bh), slice(c0 // f, c0 // f + bw)] = block
     return summary
-
-
-def _pyramid(a: np.ndarray, name: str, factors) -> dict[int, np.ndarray]:
-    return {f: v for (_, f), v in pyramid_block(a[None], (name,), factors).items()}
-
-
-def _chunk_summary(a: np.ndarray, name: str) -> tuple:
-    if name == "quality":
-        return (int(np.count_nonzero(a & QUALITY_BITS["out_of_range"])),
-                int(np.count_nonzero(a & QUALITY_BITS["input_missing"])))
-    valid = a[np.isfinite(a)]
-    if not valid.size:
-        return (np.inf, -np.inf, 0.0, 0)
-    return (float(valid.min()), float(valid.max()), float(valid.sum(dtype=np.float64)), int(valid.size))
 
 
 def _merge_summaries(parts: list[dict], names) -> dict[str, dict[str, float]]:
@@ -89,7 +82,7 @@ def _merge_summaries(parts: list[dict], names) -> dict[str, dict[str, float]]:
             out[n] = {"out_of_range": sum(v[0] for v in vals), "input_missing": sum(v[1] for v in vals)}
         else:
             count = sum(v[3] for v in vals)
-            out[n] = {"min": min(v[0] for v in vals) if count else np.nan,
+            out[n] = {"min": min(v[0] for v in vals) if count else np.nan,   # (min, max, sum, count) per chunk
                       "max": max(v[1] for v in vals) if count else np.nan,
                       "mean": sum(v[2] for v in vals) / count if count else np.nan, "valid": count}
     return out

@@ -14,7 +14,6 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
-import dask.array as da
 import numpy as np
 
 from . import __version__
@@ -165,6 +164,8 @@ def composite_paths(plan: Plan, comp: CompositeSpec) -> dict[str, Path]:
 
 
 def run_composite(plan: Plan, comp: CompositeSpec, engine: Engine, *, overwrite: bool):
+    import dask.array as da
+
     from .composite import composite
 
     members = _net_radiation_files(plan, comp.source, comp.start, comp.end)
