@@ -3,9 +3,12 @@
 The settings are plain strings so a distributed worker applies exactly the
 same ones as the client.  Costs and reasons:
 
-* ``GDAL_CACHEMAX=96`` (MB): GDAL's block cache defaults to 5 % of RAM
+* ``GDAL_CACHEMAX=48`` (MB): GDAL's block cache defaults to 5 % of RAM
   (1.2 GB on a 24 GB machine) and dominated peak memory in our measurements
-  (shared/PERF.md); chunked reads need only the blocks of the chunk in flight.
+  (shared/PERF.md).  Each chunk reads its tiles once, so a large cache buys
+  nothing (benchmarks/README.md: a 96 MB cache changed no time and added
+  ~100 MB); 48 MB keeps decimated reads (quicklooks, samples) from
+  re-decompressing tiles.
 * ``GDAL_NUM_THREADS=1`` for reads inside tasks: Dask already runs one task per
   core, so per-read decompression threads would oversubscribe.  The final COG
   compression is the one step that uses ``NUM_THREADS=ALL_CPUS`` (writers.py).
@@ -28,7 +31,7 @@ import rasterio
 __all__ = ["GDAL_OPTIONS", "gdal_env", "gdal_options"]
 
 GDAL_OPTIONS: dict[str, str] = {
-    "GDAL_CACHEMAX": "96",
+    "GDAL_CACHEMAX": "48",
     "GDAL_NUM_THREADS": "1",
     "GDAL_DISABLE_READDIR_ON_OPEN": "EMPTY_DIR",
     "CPL_VSIL_CURL_ALLOWED_EXTENSIONS": ".tif,.tiff,.TIF,.TIFF,.vrt,.nc,.ovr",
@@ -48,8 +51,14 @@ def gdal_options() -> dict[str, str]:
 
 
 def _for_rasterio(options: dict[str, str]) -> dict:
-    # rasterio passes GDAL_CACHEMAX to GDALSetCacheMax, which wants an integer (MB)
-    return {k: int(v) if k == "GDAL_CACHEMAX" and str(v).isdigit() else v for k, v in options.items()}
+    # rasterio hands an integer GDAL_CACHEMAX to GDALSetCacheMax64, which counts *bytes*;
+    # our value (like GDAL's own environment variable below 100000) is in MB
+    out = dict(options)
+    v = str(out.get("GDAL_CACHEMAX", ""))
+    if v.isdigit():
+        n = int(v)
+        out["GDAL_CACHEMAX"] = n * 1024 * 1024 if n < 100000 else n
+    return out
 
 
 @contextlib.contextmanager
