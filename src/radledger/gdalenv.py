@@ -3,11 +3,11 @@
 The settings are plain strings so a distributed worker applies exactly the
 same ones as the client.  Costs and reasons:
 
-* ``GDAL_CACHEMAX=48`` (MB): GDAL's block cache defaults to 5 % of RAM
+* ``GDAL_CACHEMAX=16`` (MB): GDAL's block cache defaults to 5 % of RAM
   (1.2 GB on a 24 GB machine) and dominated peak memory in our measurements
   (shared/PERF.md).  Each chunk reads its tiles once, so a large cache buys
   nothing (benchmarks/README.md: a 96 MB cache changed no time and added
-  ~100 MB); 48 MB keeps decimated reads (quicklooks, samples) from
+  ~100 MB, and peak memory then grew with the scene); 16 MB keeps decimated reads from
   re-decompressing tiles.
 * ``GDAL_NUM_THREADS=1`` for reads inside tasks: Dask already runs one task per
   core, so per-read decompression threads would oversubscribe.  The final COG
@@ -31,7 +31,7 @@ import rasterio
 __all__ = ["GDAL_OPTIONS", "gdal_env", "gdal_options"]
 
 GDAL_OPTIONS: dict[str, str] = {
-    "GDAL_CACHEMAX": "48",
+    "GDAL_CACHEMAX": "16",
     "GDAL_NUM_THREADS": "1",
     "GDAL_DISABLE_READDIR_ON_OPEN": "EMPTY_DIR",
     "CPL_VSIL_CURL_ALLOWED_EXTENSIONS": ".tif,.tiff,.TIF,.TIFF,.vrt,.nc,.ovr",
