@@ -141,10 +141,9 @@ def _where(report) -> None:
         if name in groups:
             print(f"  {out / name}/  ({len(groups[name])} files)")
     ql = out / "quicklooks"
-    if ql.exists():
-        first = sorted(ql.glob("net_radiation_*.png"))
-        if first:
-            print(f"open a quicklook first: {first[0]}")
+    scenes = sorted(ql.glob("net_radiation_*T*.png")) if ql.exists() else []
+    if scenes:
+        print(f"net-radiation quicklooks: {ql}/net_radiation_*.png (e.g. {scenes[-1].name})")
 
 
 if __name__ == "__main__":

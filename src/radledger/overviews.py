@@ -48,17 +48,7 @@ def _halve_mean(s: np.ndarray, n: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _mean_levels(block: np.ndarray, factors) -> dict[int, np.ndarray]:
-    valid = ~np.isnan(block)
-    s = np.where(valid, block, np.float32(0)).astype(np.float64)
-    n = valid.astype(np.int32)
-    out, f = {}, 1
-    for target in factors:
-        while f < target:
-            s, n = _halve_mean(s, n)
-            f *= 2
-        with np.errstate(invalid="ignore", divide="ignore"):
-            out[target] = np.where(n > 0, s / np.maximum(n, 1), np.nan).astype(np.float32)
-    return out
+    return mean_pyramid(block, factors)[0]
 
 
 @numba.njit(nogil=True, cache=True)
