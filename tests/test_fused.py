@@ -63,3 +63,25 @@ def test_other_methods_do_not_take_the_fused_path():
     assert not fused_applies(SceneParams(time=TIME, products=("sky_emissivity",)), arrays)
     no_sw = {k: v for k, v in arrays.items() if k != "shortwave_down"}
     assert not fused_applies(SceneParams(time=TIME, products=("net_radiation",)), no_sw)
+
+
+def test_unknown_class_takes_the_default_and_is_flagged():
+    lut = np.full(256, np.nan, np.float32)
+    lut[[10, 30]] = [0.96, 0.97]                       # 80 is missing from this table
+    arrays = _inputs(16)
+    p = SceneParams(time=TIME, products=("net_radiation", "quality"), emissivity_lut=lut,
+                    emissivity_unknown=0.95)
+    out = scene_kernel(arrays, None, None, p)
+    is80 = arrays["land_cover"] == 80
+    assert (out["quality"][is80] & QUALITY_BITS["emissivity_default"]).all()
+    assert not (out["quality"][~is80 & ~np.isnan(arrays["land_cover"])] & QUALITY_BITS["emissivity_default"]).any()
+
+
+def test_unknown_class_without_default_names_the_class():
+    from radledger.errors import UnknownClassError
+    lut = np.full(256, np.nan, np.float32)
+    lut[[10, 30]] = [0.96, 0.97]
+    p = SceneParams(time=TIME, products=("net_radiation",), emissivity_lut=lut, land_cover_path="lc.tif",
+                    emissivity_table="table.csv")
+    with pytest.raises(UnknownClassError, match=r"lc.tif: land-cover classes 80 are not in .*table.csv"):
+        scene_kernel(_inputs(16), None, None, p)
