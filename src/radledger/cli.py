@@ -33,6 +33,22 @@ def _on_signal(signum, frame):
     raise _Stopped(signum)
 
 
+def _on_interrupt(signum, frame):
+    raise KeyboardInterrupt
+
+
+def _install_handlers() -> dict:
+    """SIGTERM and SIGINT stop the run through the same cleanup.
+
+    SIGINT is installed explicitly: a process started from a script in the
+    background inherits SIGINT *ignored*, and Python then never raises
+    KeyboardInterrupt, so Ctrl-C / ``kill -INT`` would be lost.
+    """
+    old = {signal.SIGTERM: signal.signal(signal.SIGTERM, _on_signal),
+           signal.SIGINT: signal.signal(signal.SIGINT, _on_interrupt)}
+    return old
+
+
 def _parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(prog="radledger", description="Per-pixel surface net radiation maps "
                                 "(instantaneous W m-2 and FAO-56 daily MJ m-2 day-1) as cloud-optimised GeoTIFFs.")
@@ -75,7 +91,7 @@ def demo_config() -> Path:
 
 def main(argv: list[str] | None = None) -> int:
     args = _parser().parse_args(argv)
-    old = signal.signal(signal.SIGTERM, _on_signal)
+    old = _install_handlers()
     try:
         return _dispatch(args)
     except Problems as exc:
@@ -102,7 +118,8 @@ def main(argv: list[str] | None = None) -> int:
         print("radledger: unexpected error (a bug); please report it with the traceback above", file=sys.stderr)
         return 1
     finally:
-        signal.signal(signal.SIGTERM, old)
+        for sig, handler in old.items():
+            signal.signal(sig, handler)
 
 
 def _dispatch(args) -> int:
