@@ -209,3 +209,26 @@ def test_static_layer_shared_by_scenes(tmp_path):
     scn.config.write_text(yaml.safe_dump(cfg))
     report = _run(scn)
     assert len(report.written) == 8
+
+
+def test_night_scene_flags_sun_down_and_keeps_negative_net_radiation(tmp_path):
+    # 08:00 UTC is about midnight local solar time at 119 W
+    scn = make_scenario(tmp_path, holes=False, time="2026-07-14T08:00:00Z")
+    from scenario import write_tif
+    write_tif(tmp_path / "rs.tif", np.zeros(scn.shape, np.float32), transform=scn.transform)
+    _run(scn)
+    out = tmp_path / "out" / "scenes"
+    q = read(out / "quality_20260714T0800.tif")
+    rn = read(out / "net_radiation_20260714T0800.tif")
+    assert (q & QUALITY_BITS["sun_down"]).all()
+    # at night net radiation is the (negative) net longwave: typically -30 to -100 W m-2 (common practice)
+    assert np.nanmax(rn) < 0
+    with rasterio.open(out / "quality_20260714T0800.tif") as ds:
+        assert ds.tags()["time"] == "2026-07-14T08:00:00Z"
+
+
+def test_daytime_scene_has_no_sun_down_flags(tmp_path):
+    scn = make_scenario(tmp_path, holes=False)
+    _run(scn)
+    q = read(tmp_path / "out" / "scenes" / f"quality_{STAMP}.tif")
+    assert not (q & QUALITY_BITS["sun_down"]).any()

@@ -147,6 +147,16 @@ class TargetGrid:
         lon_c, lat_c = self._to_lonlat.transform(*np.meshgrid(xs, ys))
         return _bilinear(lon_c, rows, cols, h, w), _bilinear(lat_c, rows, cols, h, w)
 
+    def lonlat_corners(self, window: Window) -> tuple[np.ndarray, np.ndarray]:
+        """Longitude, latitude [deg] of the four corner pixel centres of ``window`` (2 x 2)."""
+        t = self.window_transform(window)
+        cols = np.array([0.5, int(window.width) - 0.5])
+        rows = np.array([0.5, int(window.height) - 0.5])
+        x, y = np.meshgrid(t.c + t.a * cols, t.f + t.e * rows)
+        if self.crs.is_geographic:
+            return x, y
+        return self._to_lonlat.transform(x, y)
+
     @cached_property
     def _to_lonlat(self):
         from pyproj import Transformer

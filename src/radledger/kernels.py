@@ -114,6 +114,19 @@ def resolve_unknown_classes(eps, cls, unknown, p: SceneParams, quality) -> np.nd
     return np.where(unknown, np.float32(p.emissivity_unknown), eps)
 
 
+def sun_may_be_down(lat: np.ndarray, lon: np.ndarray, p: SceneParams) -> bool:
+    """False when the sun is well up at every corner of the chunk (then no pixel can be sun-down).
+
+    The sun's elevation changes by well under a degree across a chunk, so
+    50 W m-2 of extraterrestrial irradiance (about 2 degrees of elevation) at
+    all four corners leaves every pixel in between with the sun up; this
+    skips a full-chunk sun-position pass on daytime scenes.
+    """
+    idx = ([0, 0, -1, -1], [0, -1, 0, -1])
+    ra = ph.extraterrestrial_instant(np.asarray(lat)[idx], np.asarray(lon)[idx], p.day_of_year, p.utc_hour)
+    return not bool(np.all(ra > 50.0))
+
+
 def scene_kernel(arrays: dict[str, np.ndarray], lon: np.ndarray | None, lat: np.ndarray | None,
                  p: SceneParams, *, reuse: bool = False) -> dict[str, np.ndarray]:
     """Every scene product of one chunk [W m-2, 1]; see :data:`products.SCENE_PRODUCTS`.
@@ -124,7 +137,7 @@ def scene_kernel(arrays: dict[str, np.ndarray], lon: np.ndarray | None, lat: np.
     q = np.zeros(shape, dtype=np.uint8)
     if fused_applies(p, arrays):
         out = fused_scene(arrays, p, reuse=reuse)
-        if lat is not None:
+        if lat is not None and sun_may_be_down(lat, lon, p):
             ra = ph.extraterrestrial_instant(lat, lon, p.day_of_year, p.utc_hour)
             out["quality"][ra <= 0] |= B["sun_down"]
         return out

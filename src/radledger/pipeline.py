@@ -21,7 +21,8 @@ from dask.base import tokenize
 from . import __version__
 from .engine import Engine
 from .grid import TargetGrid
-from .kernels import day_kernel, scene_kernel
+from .fused import fused_applies
+from .kernels import day_kernel, scene_kernel, sun_may_be_down
 from .overviews import mean_pyramid, overview_factors, pyramid_block
 from .plan import Job, Plan
 from .products import QUALITY_BITS, product_info
@@ -43,7 +44,12 @@ def chunk_products(job: Job, grid: TargetGrid, window, names: tuple[str, ...], *
     arrays = {k: s.read(grid, window) for k, s in job.sources.items()}
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         if job.kind == "scenes":
-            lon, lat = grid.lonlat(window) if job.needs_lonlat else (None, None)
+            need = job.needs_lonlat
+            if need and fused_applies(job.params, arrays):
+                # the fused path needs coordinates only to flag sun-down pixels: check the corners
+                lon_c, lat_c = grid.lonlat_corners(window)
+                need = sun_may_be_down(lat_c, lon_c, job.params)
+            lon, lat = grid.lonlat(window) if need else (None, None)
             out = scene_kernel(arrays, lon, lat, job.params, reuse=reuse)
         else:
             _, lat = grid.lonlat(window)
