@@ -35,16 +35,27 @@ def level_shape(h: int, w: int, f: int) -> tuple[int, int]:
     return -(-h // f), -(-w // f)
 
 
-def _halve_mean(s: np.ndarray, n: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Sum and count of 2 x 2 cells (edges padded)."""
+@numba.njit(nogil=True, cache=True)
+def _halve_mean(s, n):
+    """Sums and counts of 2 x 2 cells (a ragged last row/column counts what it has)."""
     h, w = s.shape
-    H, W = level_shape(h, w, 2)
-    if (H * 2, W * 2) != (h, w):
-        s = np.pad(s, ((0, H * 2 - h), (0, W * 2 - w)))
-        n = np.pad(n, ((0, H * 2 - h), (0, W * 2 - w)))
-    s2 = s.reshape(H, 2, W, 2).sum(axis=(1, 3))
-    n2 = n.reshape(H, 2, W, 2).sum(axis=(1, 3))
+    s2 = np.zeros(((h + 1) // 2, (w + 1) // 2), np.float64)
+    n2 = np.zeros(((h + 1) // 2, (w + 1) // 2), np.int64)
+    for i in range(h):
+        ii = i >> 1
+        for j in range(w):
+            s2[ii, j >> 1] += s[i, j]
+            n2[ii, j >> 1] += n[i, j]
     return s2, n2
+
+
+@numba.njit(nogil=True, cache=True)
+def _mean_of(s, n):
+    out = np.empty(s.shape, np.float32)
+    for i in range(s.shape[0]):
+        for j in range(s.shape[1]):
+            out[i, j] = s[i, j] / n[i, j] if n[i, j] > 0 else np.nan
+    return out
 
 
 def _mean_levels(block: np.ndarray, factors) -> dict[int, np.ndarray]:
@@ -81,8 +92,7 @@ def mean_pyramid(block: np.ndarray, factors) -> tuple[dict[int, np.ndarray], tup
         while f < target:
             s, n = _halve_mean(s, n)
             f *= 2
-        with np.errstate(invalid="ignore", divide="ignore"):
-            out[target] = np.where(n > 0, s / np.maximum(n, 1), np.nan).astype(np.float32)
+        out[target] = _mean_of(s, n)
     return out, (float(lo), float(hi), float(tot), int(cnt))
 
 
