@@ -225,22 +225,13 @@ def day_kernel(arrays: dict[str, np.ndarray], lat: np.ndarray, p: DayParams) -> 
     ea = humidity_to_kpa(arrays, q, None, tmax, tmin)
     z = _checked(arrays, "elevation", q)
     albedo = _checked(arrays, "albedo", q) if "albedo" in arrays else np.float32(0.23)
-    ra = ph.extraterrestrial_daily(lat, p.day_of_year)
-    rso = ph.clear_sky_shortwave_fao56(ra, z)
+    terms = ph.fao56_net_radiation_components_daily(rs, tmax, tmin, ea, lat, p.day_of_year, z, albedo)
     with np.errstate(invalid="ignore"):
-        q[rs > rso] |= B["shortwave_capped"]
-    rns = ph.net_shortwave(albedo, rs)
-    rnl = ph.fao56_net_longwave_daily(tmax, tmin, ea, rs, rso)
+        q[rs > terms["clear_sky_shortwave"]] |= B["shortwave_capped"]
     out = {}
-    want = set(p.products)
-    if "net_radiation" in want:
-        out["net_radiation"] = rns - rnl
-    if "net_shortwave" in want:
-        out["net_shortwave"] = rns * np.ones(shape, np.float32)
-    if "net_longwave" in want:
-        out["net_longwave"] = rnl
-    if "clear_sky_shortwave" in want:
-        out["clear_sky_shortwave"] = rso
-    if "quality" in want:
+    for name in ("net_radiation", "net_shortwave", "net_longwave", "clear_sky_shortwave"):
+        if name in p.products:
+            out[name] = np.broadcast_to(terms[name], shape)
+    if "quality" in p.products:
         out["quality"] = q
     return out
