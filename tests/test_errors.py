@@ -2,17 +2,15 @@
 
 from __future__ import annotations
 
-import os
 import subprocess
 import sys
 
 import numpy as np
 import pytest
-import rasterio
 
 from radledger.cli import main
 
-from scenario import DELETE, make_scenario, write_tif
+from scenario import make_scenario, write_tif
 
 
 def _run_cli(capsys, *args):

@@ -9,7 +9,6 @@ whole-array warp (rasterio.warp.reproject) rather than the per-chunk path.
 from __future__ import annotations
 
 import numpy as np
-import pytest
 import rasterio
 from rasterio.enums import Resampling
 from rasterio.warp import reproject

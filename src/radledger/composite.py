@@ -21,7 +21,6 @@ NaN is "no value" everywhere; the kernels never emit all-NaN RuntimeWarnings.
 from __future__ import annotations
 
 import os
-from datetime import date
 from pathlib import Path
 from typing import Sequence
 

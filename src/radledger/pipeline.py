@@ -28,7 +28,7 @@ from .plan import Job, Plan
 from .products import QUALITY_BITS, product_info
 from .writers import ProductFile, read_tags
 
-__all__ = ["job_stack", "run_job", "JobResult", "product_order"]
+__all__ = ["job_graph", "run_job", "JobResult", "product_order", "chunk_products"]
 
 
 def product_order(job: Job) -> tuple[str, ...]:
