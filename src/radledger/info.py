@@ -52,7 +52,7 @@ def _describe_netcdf(path: str) -> str:
         lines = [f"file:      {path}", f"title:     {ds.attrs.get('title', '')}",
                  f"source:    {ds.attrs.get('source', '')}"]
         for name, v in ds.data_vars.items():
-            if v.ndim >= 2:
+            if v.ndim >= 3:   # the maps, not time_bnds
                 lines.append(f"variable:  {name} {dict(v.sizes)} [{v.attrs.get('units', '')}] "
                              f"{v.attrs.get('standard_name', '')}; cell_methods {v.attrs.get('cell_methods', '')}")
         if "time" in ds:
