@@ -190,3 +190,16 @@ def test_exit_2_from_a_real_process(scn):
     assert p.returncode == 2
     assert "nowhere.tif" in p.stderr and "Traceback" not in p.stderr
     assert len(p.stderr.strip().splitlines()) == 1
+
+
+def test_read_only_output_folder_is_refused_even_for_root(scn, capsys):
+    ro = scn.folder / "readonly"
+    ro.mkdir()
+    ro.chmod(0o555)
+    try:
+        scn.write_config(**{"output.directory": "readonly/out"})
+        code, _, err = _run_cli(capsys, "run", str(scn.config))
+        assert code == 2 and "not writable" in err and "readonly" in err and "Traceback" not in err
+        assert list(ro.iterdir()) == []
+    finally:
+        ro.chmod(0o755)

@@ -253,9 +253,13 @@ def output_problems(plan: Plan, *, force: bool, jobs_known: bool = True) -> list
     probe = out
     while not probe.exists() and probe.parent != probe:
         probe = probe.parent
-    if not os.access(probe, os.W_OK | os.X_OK) or not probe.is_dir():
-        return [OutputError(f"{out}: output folder is not writable (nearest existing folder {probe}); "
-                            f"choose another output.directory or fix its permissions")]
+    # a folder with no write bit at all is refused even for root, who could write anyway:
+    # someone marked it read-only on purpose
+    read_only = probe.is_dir() and not (probe.stat().st_mode & 0o222)
+    if not probe.is_dir() or read_only or not os.access(probe, os.W_OK | os.X_OK):
+        return [OutputError(f"{out}: output folder is not writable (nearest existing folder {probe}"
+                            f"{', marked read-only' if read_only else ''}); choose another output.directory "
+                            f"or fix its permissions")]
     need = plan.estimated_bytes(len(plan.cfg.scenes) * len(plan.cfg.output.products)
                                 + len(plan.cfg.days) * len(plan.cfg.output.products)) if not jobs_known \
         else plan.estimated_bytes()
