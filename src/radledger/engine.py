@@ -42,10 +42,10 @@ class _GdalSettingsPlugin:
 class Engine:
     """Runs graphs; ``address`` picks an existing distributed scheduler."""
 
-    def __init__(self, address: str | None = None, *, progress: bool = False, stream=sys.stderr):
+    def __init__(self, address: str | None = None, *, progress: bool = False, stream=None):
         self.address = address or os.environ.get("DASK_SCHEDULER_ADDRESS") or None
         self.progress = progress
-        self.stream = stream
+        self.stream = stream or sys.stderr
         self.client = None
         self._locks: dict[str, threading.Lock] = {}
         apply_gdal_process_settings()

@@ -192,8 +192,9 @@ def run_job(plan: Plan, job: Job, engine: Engine, *, overwrite: bool = False) ->
     return result
 
 
-def print_summary(results: list[JobResult], stream=sys.stdout) -> None:
+def print_summary(results: list[JobResult], stream=None) -> None:
     """The closing table: min / mean / max per product and job."""
+    stream = stream or sys.stdout
     rows = []
     for r in results:
         for n, s in r.summary.items():

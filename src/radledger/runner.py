@@ -49,7 +49,8 @@ def run(config: str | os.PathLike, *, overwrite: bool = False, quiet: bool = Tru
 
 
 def run_config(cfg: Config, *, overwrite: bool = False, quiet: bool = True, scheduler: str | None = None,
-               force: bool = False, stream=sys.stdout) -> RunReport:
+               force: bool = False, stream=None) -> RunReport:
+    stream = stream or sys.stdout   # looked up at call time (sys.stdout may be replaced)
     t0 = time.monotonic()
     say = (lambda *a: None) if quiet else (lambda *a: print(*a, file=stream, flush=True))
     # the whole-land-cover class scan is left to `check`; a run meets unknown classes in its
