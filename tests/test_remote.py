@@ -167,3 +167,29 @@ def test_file_server_answers_ranges_like_a_static_http_server(tmp_path, serve):
     assert [(r.method, r.range, r.status) for r in server.requests][:3] == \
         [("GET", None, 200), ("HEAD", None, 200), ("GET", "bytes=100-199", 206)]
     assert server.bytes_sent("blob.tif") == len(data) + 100 + 16 + 20
+
+
+def test_config_given_as_a_url_resolves_inputs_beside_it(tmp_path):
+    """A config fetched over HTTP: relative input paths and the table resolve against its URL."""
+    from radledger.config import load_config
+    from radledger.runner import run_config
+    from scenario import make_scenario, read
+
+    scn = make_scenario(tmp_path / "served", shape=(64, 80), chunk=64, holes=False)
+    local = run_config(load_config(scn.config), quiet=True)
+    expected = read(local.written[0])
+    with FileServer(scn.folder) as server:
+        cfg = load_config(server.url("config.yaml"), output_override=tmp_path / "from_url")
+        assert cfg.scenes[0].layers["albedo"] == server.url("albedo.tif")
+        report = run_config(cfg, quiet=True)
+    got = read(report.written[0])
+    np.testing.assert_array_equal(got, expected)
+
+
+def test_config_url_that_404s_is_a_config_error(tmp_path, capsys):
+    from radledger.cli import main
+    with FileServer(tmp_path) as server:
+        url = server.url("nowhere.yaml")
+        assert main(["check", url]) == 2
+    err = capsys.readouterr().err
+    assert url in err and "HTTP 404" in err

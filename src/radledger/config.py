@@ -209,7 +209,15 @@ def gdal_path(path: str) -> str:
 
 
 def load_config(path: str | os.PathLike, *, output_override: str | os.PathLike | None = None) -> Config:
-    """Read and validate a run config; raise :class:`Problems` listing every problem found."""
+    """Read and validate a run config; raise :class:`Problems` listing every problem found.
+
+    ``path`` may be an ``http(s)://`` URL; relative input paths then resolve
+    against the config's URL, and a relative output.directory against the
+    current folder.
+    """
+    if str(path).startswith(("http://", "https://")):
+        text = _fetch(str(path))
+        return _parse(path, text, output_override)
     path = Path(path)
     try:
         text = path.read_text(encoding="utf-8")
@@ -218,6 +226,23 @@ def load_config(path: str | os.PathLike, *, output_override: str | os.PathLike |
     except (OSError, UnicodeDecodeError) as exc:
         raise ConfigError(f"{path}: cannot read the config ({exc.__class__.__name__}: {exc}); "
                           f"give a readable UTF-8 YAML file") from None
+    return _parse(path, text, output_override)
+
+
+def _fetch(url: str, timeout: float = 30.0) -> str:
+    import urllib.error
+    import urllib.request
+
+    try:
+        with urllib.request.urlopen(url, timeout=timeout) as r:
+            return r.read().decode("utf-8")
+    except urllib.error.HTTPError as exc:
+        raise ConfigError(f"{url}: cannot fetch the config (HTTP {exc.code}); check the URL") from None
+    except (urllib.error.URLError, OSError, UnicodeDecodeError) as exc:
+        raise ConfigError(f"{url}: cannot fetch the config ({exc}); check the URL and the network") from None
+
+
+def _parse(path, text: str, output_override) -> Config:
     try:
         raw = yaml.safe_load(text)
     except yaml.YAMLError as exc:
@@ -240,9 +265,10 @@ def load_config(path: str | os.PathLike, *, output_override: str | os.PathLike |
 
 
 class _Validator:
-    def __init__(self, path: Path, raw: dict, output_override):
+    def __init__(self, path, raw: dict, output_override):
         self.path = path
-        self.base = path.resolve().parent
+        self.url = str(path) if str(path).startswith(("http://", "https://")) else None
+        self.base = Path.cwd() if self.url else Path(path).resolve().parent
         self.raw = raw
         self.problems: list[ConfigError] = []
         self.output_override = output_override
@@ -305,6 +331,9 @@ class _Validator:
         value = value.strip()
         if is_remote(value):
             return value
+        if self.url:
+            from urllib.parse import urljoin
+            return urljoin(self.url, value)
         p = Path(os.path.expanduser(value))
         return str(p if p.is_absolute() else (self.base / p))
 

@@ -74,6 +74,13 @@ def read_emissivity_table(path: str | os.PathLike) -> EmissivityTable:
         0..65535, an emissivity that is not a number in (0, 1], a class
         listed twice, or no rows at all.
     """
+    if str(path).startswith(("http://", "https://")):
+        from .config import _fetch   # a table beside a config given by URL
+        try:
+            lines = _fetch(str(path)).lstrip("\ufeff").splitlines()
+        except Exception as exc:
+            raise InputError(f"emissivity table {path}: cannot be fetched ({exc})") from None
+        return _parse_table(path, lines)
     path = Path(path)
     try:
         with open(path, encoding="utf-8-sig", newline="") as handle:
@@ -84,7 +91,10 @@ def read_emissivity_table(path: str | os.PathLike) -> EmissivityTable:
         ) from None
     except (OSError, UnicodeDecodeError) as exc:
         raise InputError(f"emissivity table {path}: cannot be read ({exc})") from None
+    return _parse_table(path, lines)
 
+
+def _parse_table(path, lines: list[str]) -> EmissivityTable:
     values: dict[int, float] = {}
     labels: dict[int, str] = {}
     first_seen: dict[int, int] = {}
