@@ -57,6 +57,7 @@ _INTERMEDIATE = {"driver": "GTiff", "tiled": True, "blockxsize": 512, "blockysiz
 
 # Handles open for writing in this process, so threads of a local run share one.
 _open_for_write: dict[str, rasterio.io.DatasetWriter] = {}
+_closed_here: set[str] = set()   # paths whose handle this process opened and closed
 
 
 def cog_options(compression: str, dtype: str) -> dict[str, str]:
@@ -95,6 +96,9 @@ class WindowSink:
             ds = _open_for_write.get(self.path)
             if ds is not None and not ds.closed:
                 ds.write(block, 1, window=win)
+            elif self.path in _closed_here:
+                # a local run that was stopped: its handles are closed and the files removed
+                raise RuntimeError(f"{self.path}: product aborted")
             else:
                 with gdal_env(), rasterio.open(self.path, "r+") as ds2:
                     ds2.write(block, 1, window=win)
@@ -128,6 +132,7 @@ class ProductFile:
         self.in_task = tuple(f for f in self.in_task if f in self.factors)
         self.level_files = {f: f"{stem}.ov{f}.tif" for f in self.factors}
         self._lock = threading.Lock()
+        self._sink_locks: dict[str, object] = {}
 
     @property
     def nodata(self):
@@ -162,13 +167,26 @@ class ProductFile:
 
     def sink(self, lock=None, factor: int = 1) -> WindowSink:
         path = self.intermediate if factor == 1 else self.level_files[factor]
-        return WindowSink(path, lock if lock is not None else self._lock, self.dtype)
+        lock = lock if lock is not None else self._lock
+        self._sink_locks[path] = lock
+        return WindowSink(path, lock, self.dtype)
 
     def close_intermediate(self) -> None:
+        """Close the handles, each under its writers' lock.
+
+        On an interrupted run other threads may still be inside a block write;
+        closing a GDAL dataset under them crashed the process (SIGSEGV), so the
+        close waits for the write in flight.
+        """
         for path in [self.intermediate, *self.level_files.values()]:
-            ds = _open_for_write.pop(path, None)
-            if ds is not None and not ds.closed:
-                ds.close()
+            ds = _open_for_write.get(path)
+            if ds is None:
+                continue
+            with self._sink_locks.get(path, self._lock):
+                _open_for_write.pop(path, None)
+                _closed_here.add(path)
+                if not ds.closed:
+                    ds.close()
 
     # -- stage 2: one compression pass into a COG, then rename into place
     def finish(self) -> Path:
