@@ -293,6 +293,8 @@ def _quicklook_args(plan: Plan, path: Path) -> dict:
     title = f"{name.replace('_', ' ')}  {when}".strip()
     if tags.get("time_kind") == "days" and tags.get("daily_total"):
         title += f" ({tags['daily_total']})"
+    if tags.get("time_kind") == "scenes" and "shortwave_down=" not in tags.get("inputs", ""):
+        title += " (clear-sky shortwave modelled)"
     return dict(title=title, units=tags.get("units", ""),
                 diverging=base in ("net_radiation", "net_longwave") and stat not in ("count", "std"),
                 categorical_bits=QUALITY_BITS if base == "quality" else None)
