@@ -205,14 +205,6 @@ def open_dataset(gdal_name: str, shown: str | None = None):
     return ds
 
 
-def close_cached() -> None:
-    """Close this thread's cached datasets (before files are replaced)."""
-    cache = getattr(_local, "datasets", None) or {}
-    for ds in cache.values():
-        ds.close()
-    cache.clear()
-
-
 def _mtime(name: str) -> float:
     try:
         return os.stat(name).st_mtime_ns

@@ -28,14 +28,15 @@ from .plan import Job, Plan
 from .products import QUALITY_BITS, product_info
 from .writers import ProductFile, read_tags
 
-__all__ = ["job_graph", "run_job", "JobResult", "product_order", "chunk_products"]
+__all__ = ["job_graph", "run_job", "JobResult", "job_targets", "chunk_products"]
 
 
-def product_order(job: Job) -> tuple[str, ...]:
-    names = tuple(job.outputs)
+def job_targets(job: Job) -> dict[str, Path]:
+    """Every product of a job and its final path (a scene's day product included)."""
+    targets = dict(job.outputs)
     if job.day_output is not None:
-        names += ("daily_net_radiation",)
-    return names
+        targets["daily_net_radiation"] = job.day_output
+    return targets
 
 
 def chunk_products(job: Job, grid: TargetGrid, window, names: tuple[str, ...], *,
@@ -150,9 +151,7 @@ def is_current(path: Path, settings_hash: str) -> bool:
 def run_job(plan: Plan, job: Job, engine: Engine, *, overwrite: bool = False) -> JobResult:
     """Compute and write every product of ``job`` that is not already current."""
     result = JobResult(job)
-    targets: dict[str, Path] = dict(job.outputs)
-    if job.day_output is not None:
-        targets["daily_net_radiation"] = job.day_output
+    targets = job_targets(job)
     todo = {n: p for n, p in targets.items() if overwrite or not is_current(p, job.settings_hash)}
     result.skipped = [p for n, p in targets.items() if n not in todo]
     if not todo:
