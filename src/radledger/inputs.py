@@ -69,8 +69,7 @@ class LayerSource:
             try:
                 raw = self._read_raw(ds, grid, window)
             except RasterioIOError as exc:
-                raise InputError(f"{self.path}: read failed ({_short(exc)}); the file may be truncated or "
-                                 f"corrupt - re-download or re-export it") from None
+                raise _read_failed(self.path, exc) from None
         return self._decode(raw)
 
     def _read_raw(self, ds, grid: TargetGrid, window: Window) -> np.ndarray:
@@ -133,8 +132,7 @@ class LayerSource:
                     raw = np.concatenate([ds.read(1, window=Window(c, r, bw, bh)).astype(np.float32).ravel()
                                           for r in rows for c in cols])
             except RasterioIOError as exc:
-                raise InputError(f"{self.path}: read failed ({_short(exc)}); the file may be truncated or "
-                                 f"corrupt - re-download or re-export it") from None
+                raise _read_failed(self.path, exc) from None
         if self.nodata is not None:
             raw[raw == np.float32(self.nodata)] = np.nan
         return self._decode(raw)
@@ -210,6 +208,11 @@ def _mtime(name: str) -> float:
         return os.stat(name).st_mtime_ns
     except OSError:
         return 0
+
+
+def _read_failed(path: str, exc: Exception) -> InputError:
+    return InputError(f"{path}: read failed ({_short(exc)}); the file may be truncated or corrupt - "
+                      f"re-download or re-export it")
 
 
 def _short(exc: Exception) -> str:

@@ -118,6 +118,12 @@ def _file_fingerprint(path: str) -> list:
         return [path]
 
 
+def _sources_fingerprint(srcs: dict[str, LayerSource]) -> list:
+    """What a product depends on in its inputs: each file (size, mtime) and its decoding."""
+    return [_file_fingerprint(s.path) + [s.scale, s.offset, s.nodata, s.factor, s.shift, s.resampling]
+            for s in srcs.values()]
+
+
 def settings_hash(*parts) -> str:
     text = json.dumps(parts, sort_keys=True, default=str)
     return hashlib.sha256(text.encode()).hexdigest()[:20]
@@ -202,8 +208,7 @@ def make_plan(cfg: Config, *, inspect_inputs: bool = True, force: bool = False,
                              land_cover_path=cfg.static.get("land_cover", ""),
                              emissivity_table=cfg.emissivity.table or "",
                              scene_to_day=methods.scene_to_day)
-        h = settings_hash(common, [_file_fingerprint(s.path) + [s.scale, s.offset, s.nodata, s.factor, s.shift,
-                                                             s.resampling] for s in srcs.values()],
+        h = settings_hash(common, _sources_fingerprint(srcs),
                           repr(params), hashlib.sha256(lut.tobytes()).hexdigest() if lut is not None else None)
         outputs = {p: out / "scenes" / f"{p}_{scene.stamp}.tif" for p in want}
         day_output = None
@@ -221,8 +226,7 @@ def make_plan(cfg: Config, *, inspect_inputs: bool = True, force: bool = False,
             continue
         want = tuple(p for p in products if p in DAY_PRODUCTS)
         params = DayParams(date=day.date, products=want)
-        h = settings_hash(common, [_file_fingerprint(s.path) + [s.scale, s.offset, s.nodata, s.factor, s.shift,
-                                                             s.resampling] for s in srcs.values()], repr(params))
+        h = settings_hash(common, _sources_fingerprint(srcs), repr(params))
         outputs = {p: out / "days" / f"{p}_{day.stamp}.tif" for p in want}
         plan.jobs.append(Job("days", day.stamp, day.date, srcs, params, outputs, h))
 
