@@ -145,7 +145,7 @@ def fused_scene(arrays: dict[str, np.ndarray], params, *, reuse: bool = False) -
     ``reuse=True`` returns views of per-thread buffers that the thread's next
     call overwrites (for chunk tasks that write the products out at once).
     """
-    from .kernels import resolve_unknown_classes
+    from .kernels import chunk_emissivity
 
     shape = arrays["albedo"].shape
     flat = {k: np.ascontiguousarray(arrays[k], dtype=np.float32).ravel()
@@ -165,10 +165,7 @@ def fused_scene(arrays: dict[str, np.ndarray], params, *, reuse: bool = False) -
                         *_R["albedo"], *_R["surface_temperature"], *_R["air_temperature"],
                         *_R["vapour_pressure"], *_R["shortwave_down"], STEFAN_BOLTZMANN, _BRUTSAERT)
     if unknown and default is None:
-        c = classes.reshape(shape)
-        eps = lut[np.clip(np.nan_to_num(c, nan=0).astype(np.int64), 0, lut.size - 1)]
-        bad = ~np.isnan(c) & (np.isnan(eps) | (c >= lut.size) | (c < 0))
-        resolve_unknown_classes(None, np.nan_to_num(c, nan=-1).astype(np.int64), bad, params,
-                                np.zeros(shape, np.uint8))
+        # the loop only counts them; the NumPy lookup names the classes and raises
+        chunk_emissivity(arrays, params, np.zeros(shape, np.uint8))
     return {"net_radiation": rn.reshape(shape), "net_shortwave": rns.reshape(shape),
             "net_longwave": rnl.reshape(shape), "quality": q.reshape(shape)}

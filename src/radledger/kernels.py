@@ -87,7 +87,8 @@ def humidity_to_kpa(arrays: dict, quality: np.ndarray, temperature: np.ndarray |
     return ph.vapour_pressure_from_relative_humidity(rh, temperature)
 
 
-def _emissivity(arrays: dict, p: SceneParams, quality: np.ndarray) -> np.ndarray:
+def chunk_emissivity(arrays: dict, p: SceneParams, quality: np.ndarray) -> np.ndarray:
+    """Surface emissivity of a chunk: constant, or the land-cover lookup (unknown classes per the config)."""
     shape = quality.shape
     if p.emissivity_constant is not None:
         return np.full(shape, p.emissivity_constant, dtype=np.float32)
@@ -145,7 +146,7 @@ def scene_kernel(arrays: dict[str, np.ndarray], lon: np.ndarray | None, lat: np.
     ts = _checked(arrays, "surface_temperature", q)
     ta = _checked(arrays, "air_temperature", q)
     ea = humidity_to_kpa(arrays, q, ta)
-    eps_s = _emissivity(arrays, p, q)
+    eps_s = chunk_emissivity(arrays, p, q)
 
     rso = None
     if lat is not None:
