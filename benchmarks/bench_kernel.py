@@ -6,12 +6,11 @@ Times, on N x N float32 inputs already in memory (no I/O):
 
 * ``numpy``          the plain NumPy expression with temporaries (as in plain_script.py)
 * ``numpy-inplace``  the same in place into preallocated buffers, ``x*x*x*x`` for the 4th power
-* ``scene_kernel``   ``radledger.kernels.scene_kernel`` on one chunk x chunk block, called
+* ``scene_kernel``   ``radledger.model.kernels.scene_kernel`` on one chunk x chunk block, called
                      (N / chunk)^2 times so it covers the same number of pixels
 * ``scene_kernel-whole``  the same function called once on the whole N x N arrays
 * ``scene_kernel-numpy``  scene_kernel's NumPy path (its fused dispatch switched off), if it has one
-* ``scene_rn_fused`` ``radledger.fused.scene_rn_fused`` if it exists (else skipped), whole arrays
-* ``fused_scene``    ``radledger.fused.fused_scene`` (the Numba loop scene_kernel dispatches to;
+* ``fused_scene``    ``radledger.model.fused.fused_scene`` (the Numba loop scene_kernel dispatches to;
                      either signature (arrays, params) or (arrays, eps_s, params)),
                      emissivity lookup included, on the chunk block like scene_kernel
 * ``fused_scene-reuse``  the same with ``reuse=True`` (output buffers reused), when it has that flag
@@ -127,28 +126,6 @@ _ALIASES = {
 }
 
 
-def bind_fused(fn, arrays, lut, params):
-    """A zero-argument call of an unknown-signature fused kernel, or raise TypeError."""
-    sig = inspect.signature(fn)
-    names = list(sig.parameters)
-    if names[:1] == ["arrays"] or (len(names) >= 4 and names[1:3] == ["lon", "lat"]):
-        return lambda: fn(arrays, None, None, params)
-    kwargs = {}
-    for name, par in sig.parameters.items():
-        for key, aliases in _ALIASES.items():
-            if name in aliases:
-                kwargs[name] = lut if key == "lut" else arrays[key]
-                break
-        else:
-            if name in ("params", "p"):
-                kwargs[name] = params
-            elif name == "sigma":
-                kwargs[name] = SIGMA
-            elif par.default is inspect.Parameter.empty and par.kind not in (par.VAR_POSITIONAL, par.VAR_KEYWORD):
-                raise TypeError(f"cannot supply parameter {name!r} of scene_rn_fused{sig}")
-    return lambda: fn(**kwargs)
-
-
 def _rn(result):
     if isinstance(result, dict):
         result = result["net_radiation"]
@@ -192,10 +169,11 @@ def main(argv=None):
     gc.collect()
 
     try:
-        from radledger.kernels import SceneParams, scene_kernel
+        from radledger.model.kernels import scene_kernel
+        from radledger.model.params import SceneParams
         from radledger.physics.emissivity import build_lookup
     except Exception as exc:   # noqa: BLE001 - report and carry on
-        print(f"radledger.kernels not importable: {exc}", file=sys.stderr)
+        print(f"radledger.model.kernels not importable: {exc}", file=sys.stderr)
         scene_kernel = None
     rl_lut = None
     if scene_kernel is not None:
@@ -214,7 +192,7 @@ def main(argv=None):
         state.pop("skw", None)
         del whole
         gc.collect()
-        import radledger.kernels as rk
+        import radledger.model.kernels as rk
         if hasattr(rk, "fused_applies"):
             # the same function with its fused dispatch switched off: the NumPy path alone
             saved = rk.fused_applies
@@ -226,33 +204,15 @@ def main(argv=None):
                 rk.fused_applies = saved
 
     fused_notes = []
+    # radledger.model.fused.fused_scene(arrays, eps_s, params): the Numba loop scene_kernel dispatches to
     try:
-        from radledger.fused import scene_rn_fused
-    except Exception as exc:   # noqa: BLE001
-        fused_notes.append(f"scene_rn_fused skipped: not importable ({type(exc).__name__}: {exc})")
-    else:
-        arrays = {k: x[k] for k in ("albedo", "surface_temperature", "air_temperature",
-                                    "vapour_pressure", "shortwave_down")}
-        arrays["land_cover"] = x["land_cover_u8"].astype(np.float32)
-        try:
-            fparams = params if scene_kernel is not None else None
-            call = bind_fused(scene_rn_fused, arrays, rl_lut if rl_lut is not None else lut, fparams)
-            t0 = time.perf_counter()
-            state["fu"] = call()                          # first call: includes any JIT compile
-            first = time.perf_counter() - t0
-            add("scene_rn_fused", lambda: state.__setitem__("fu", call()), n * n, lambda: _rn(state["fu"]),
-                f"whole array; first call {first:.2f} s")
-        except Exception as exc:   # noqa: BLE001
-            fused_notes.append(f"scene_rn_fused skipped: calling it failed ({type(exc).__name__}: {exc})")
-    # radledger.fused.fused_scene(arrays, eps_s, params): the Numba loop scene_kernel dispatches to
-    try:
-        from radledger.fused import fused_scene
+        from radledger.model.fused import fused_scene
         from radledger.physics.emissivity import emissivity_from_classes
     except Exception as exc:   # noqa: BLE001
         fused_notes.append(f"fused_scene skipped: not importable ({type(exc).__name__}: {exc})")
     else:
         if scene_kernel is None:
-            fused_notes.append("fused_scene skipped: needs radledger.kernels.SceneParams")
+            fused_notes.append("fused_scene skipped: needs radledger.model.kernels.SceneParams")
         else:
             try:
                 positional = [q.name for q in inspect.signature(fused_scene).parameters.values()

@@ -11,7 +11,10 @@ import pytest
 from dask.callbacks import Callback
 
 from helpers_rasters import utm_grid, write_raster
-from radledger.composite import COMPOSITE_STATISTICS, LEAF_DATES, composite, read_product, season_window
+from radledger.config.seasons import season_window
+from radledger.io.lazy import read_product
+from radledger.model.products import COMPOSITE_STATISTICS
+from radledger.outputs.composites import LEAF_DATES, composite
 from radledger.errors import InputError
 
 N_DATES = 2 * LEAF_DATES + 3  # uneven leaves and an odd number of merges

@@ -58,7 +58,7 @@ def test_fao56_examples_through_the_raster_path(tmp_path, name, lat, z, date, tm
     cfg = _day_config(tmp_path, date=date, crs="EPSG:4326", transform=t, shape=(4, 4),
                       values={"shortwave_down": rs, "air_temperature_max": tmax, "air_temperature_min": tmin,
                               "vapour_pressure": ea}, elevation=z)
-    run_config(load_config(cfg), quiet=True)
+    run_config(load_config(cfg))
     stamp = date.replace("-", "")
     out = tmp_path / "out" / "days"
     got = {p: read(out / f"{p}_{stamp}.tif") for p in ("net_radiation", "net_longwave", "clear_sky_shortwave")}
@@ -82,7 +82,7 @@ def test_daily_map_equals_point_by_point_with_per_pixel_latitude(tmp_path):
     rs = np.full(shape, 25.0, np.float32)
     rs[40:50, 30:45] = np.nan                               # a nodata hole
     write_tif(folder / "shortwave_down.tif", rs, transform=t, nodata=np.nan)
-    run_config(load_config(cfg), quiet=True)
+    run_config(load_config(cfg))
     got = read(tmp_path / "out" / "days" / "net_radiation_20260715.tif")
 
     from pyproj import Transformer
@@ -99,7 +99,7 @@ def test_daily_map_equals_point_by_point_with_per_pixel_latitude(tmp_path):
 def test_scene_to_day_sinusoidal_is_a_daytime_total(tmp_path):
     scn = make_scenario(tmp_path, holes=False)
     scn.write_config(**{"methods.scene_to_day": "sinusoidal", "output.products": ["net_radiation"]})
-    run_config(load_config(scn.config), quiet=True)
+    run_config(load_config(scn.config))
     rn = read(tmp_path / "out" / "scenes" / "net_radiation_20260714T1810.tif")
     path = tmp_path / "out" / "days" / "net_radiation_20260714.tif"
     day = read(path)

@@ -151,7 +151,7 @@ def cluster(tmp_path_factory, unreachable_run):
             # radledger must be importable on the workers (and importing it once here keeps
             # that cost out of the first test)
             # (a builtin, so nothing from this test module has to be importable there)
-            assert len(client.run(exec, "import radledger.pipeline")) == 2
+            assert len(client.run(exec, "import radledger.execution.graph")) == 2
     except BaseException:
         _stop(procs)
         for log in logs:
@@ -199,7 +199,7 @@ def _assert_identical(a: Path, b: Path) -> None:
 
 def _local_reference(folder: Path, **kw) -> Path:
     scn = make_scenario(folder, **kw)
-    run_config(load_config(scn.config), quiet=True)
+    run_config(load_config(scn.config))
     return folder
 
 
@@ -221,7 +221,7 @@ def test_distributed_run_equals_local_run(cluster, reference, tmp_path, coarse):
     local = reference(coarse)
     scn = make_scenario(tmp_path, coarse_weather=coarse)
     before = _transitions(cluster)
-    report = run_config(load_config(scn.config), quiet=True, scheduler=cluster)
+    report = run_config(load_config(scn.config), scheduler=cluster)
     assert _transitions(cluster) > before, "the run did not use the cluster"
     assert {p.name for p in report.written} == {f"{n}_{STAMP}.tif" for n in PRODUCTS}
     for name in ("net_radiation", "quality", "net_shortwave", "net_longwave"):
@@ -254,7 +254,7 @@ def test_cli_run_on_cluster(cluster, reference, tmp_path, how):
 
 def test_distributed_products_are_cogs(cluster, tmp_path):
     scn = make_scenario(tmp_path, shape=(700, 600), chunk=256)
-    run_config(load_config(scn.config), quiet=True, scheduler=cluster)
+    run_config(load_config(scn.config), scheduler=cluster)
     for name in PRODUCTS:
         with rasterio.open(_product(tmp_path, name)) as ds:
             assert ds.tags(ns="IMAGE_STRUCTURE").get("LAYOUT") == "COG", name

@@ -7,9 +7,10 @@ import datetime as dt
 import numpy as np
 import pytest
 
-from radledger.fused import fused_applies
-from radledger.kernels import SceneParams, scene_kernel
-from radledger.products import QUALITY_BITS
+from radledger.model.fused import fused_applies
+from radledger.model.params import SceneParams
+from radledger.model.kernels import scene_kernel
+from radledger.model.products import QUALITY_BITS
 
 TIME = dt.datetime(2026, 7, 14, 18, 10, tzinfo=dt.timezone.utc)
 
@@ -42,7 +43,7 @@ def test_fused_equals_numpy_kernel(products, monkeypatch):
     arrays = _inputs()
     assert fused_applies(p, arrays)
     fused = scene_kernel({k: v.copy() for k, v in arrays.items()}, None, None, p)
-    import radledger.kernels as K
+    import radledger.model.kernels as K
     monkeypatch.setattr(K, "fused_applies", lambda *a: False)     # force the NumPy reference path
     ref = scene_kernel({k: v.copy() for k, v in arrays.items()}, None, None, p)
     for name in products:
@@ -58,7 +59,7 @@ def test_fused_equals_numpy_kernel(products, monkeypatch):
 
 def test_other_methods_do_not_take_the_fused_path():
     arrays = _inputs(8)
-    assert not fused_applies(SceneParams(time=TIME, products=("net_radiation",), sky_model="prata"), arrays)
+    assert not fused_applies(SceneParams(time=TIME, products=("net_radiation",), sky_emissivity="prata"), arrays)
     assert not fused_applies(SceneParams(time=TIME, products=("net_radiation",), clouds="crawford-duchon"), arrays)
     assert not fused_applies(SceneParams(time=TIME, products=("sky_emissivity",)), arrays)
     no_sw = {k: v for k, v in arrays.items() if k != "shortwave_down"}

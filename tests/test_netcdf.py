@@ -19,8 +19,8 @@ from pyproj import CRS
 from helpers_rasters import utm_grid, write_raster
 from radledger.errors import InputError, OutputError
 from radledger.grid import TargetGrid
-from radledger.netcdf import write_stack
-from radledger.products import QUALITY_BITS, product_info
+from radledger.outputs.netcdf import write_stack
+from radledger.model.products import QUALITY_BITS, product_info
 
 # canonical units from the CF standard-name table XML (source in the module docstring)
 CF_CANONICAL_UNITS = {

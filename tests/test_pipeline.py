@@ -15,7 +15,7 @@ from rasterio.warp import reproject
 
 import radledger
 from radledger import physics as ph
-from radledger.products import QUALITY_BITS, QUALITY_NODATA
+from radledger.model.products import QUALITY_BITS, QUALITY_NODATA
 from radledger.runner import run_config
 from radledger.config import load_config
 
@@ -39,7 +39,7 @@ def _expected_rn(t, ta=None, ea=None, rs=None):
 
 
 def _run(scn, **kw):
-    return run_config(load_config(scn.config), quiet=True, **kw)
+    return run_config(load_config(scn.config), **kw)
 
 
 def test_same_grid_scaled_integers_hpa_degc_match_point_by_point(tmp_path):
@@ -98,7 +98,7 @@ def test_quality_flags_missing_and_out_of_range(tmp_path):
     assert np.isnan(rn[200:205, 10:15]).all()
     assert (q[10:30, 40:70] & QUALITY_BITS["input_missing"]).all()   # albedo hole
     assert not (q == QUALITY_NODATA).any()
-    assert report.results[0].summary["quality"]["out_of_range"] == 25
+    assert report.results[0].summary["quality"].out_of_range == 25
     with rasterio.open(out / f"quality_{STAMP}.tif") as ds:
         assert ds.nodata == QUALITY_NODATA
         assert "out_of_range" in ds.tags()["flag_meanings"]

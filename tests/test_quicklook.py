@@ -14,9 +14,9 @@ from pyproj import Transformer
 from helpers_rasters import utm_grid, write_raster
 from radledger.errors import InputError, OutputError
 from radledger.grid import TargetGrid
-from radledger.products import QUALITY_BITS
-from radledger.quicklook import DPI, FIGSIZE, NAN_COLOUR, NO_FLAGS_COLOUR, write_quicklook
-from radledger.zones import read_zones
+from radledger.model.products import QUALITY_BITS
+from radledger.outputs.quicklooks import DPI, FIGSIZE, NAN_COLOUR, NO_FLAGS_COLOUR, write_quicklook
+from radledger.io.vectors import read_zones
 
 EXPECTED_SIZE = (round(FIGSIZE[0] * DPI), round(FIGSIZE[1] * DPI))  # PNG pixels = inches x dots per inch
 

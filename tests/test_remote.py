@@ -66,14 +66,14 @@ def _nr(folder, out):
 def test_remote_inputs_equal_local_inputs(tmp_path, serve):
     scn = make_scenario(tmp_path)
     scn.write_config(**{"output.directory": "out_local"})
-    run_config(load_config(scn.config), quiet=True)
+    run_config(load_config(scn.config))
     local = _nr(tmp_path, "out_local")
 
     server = serve(tmp_path)
     cfg = load_config(_remote(scn, server, "out_remote"))
     assert cfg.static["land_cover"].startswith("http://127.0.0.1:")
     assert not cfg.emissivity.table.startswith("http")          # the CSV table stays local
-    report = run_config(cfg, quiet=True)
+    report = run_config(cfg)
     assert len(report.written) == 4
     remote = _nr(tmp_path, "out_remote")
 
@@ -97,12 +97,12 @@ def test_remote_reads_use_ranges_and_fetch_only_what_the_grid_needs(tmp_path, se
     grid = {"crs": "EPSG:32611", "resolution": RES, "bounds": [X0, Y0 - half, X0 + half, Y0],
             "resampling": "bilinear", "chunk": 256}
     scn.write_config(**{"grid": grid, "output.directory": "out_local"})
-    run_config(load_config(scn.config), quiet=True)
+    run_config(load_config(scn.config))
     local = _nr(tmp_path, "out_local")
     assert local.shape == (n // 2, n // 2)
 
     server = serve(tmp_path)
-    run_config(load_config(_remote(scn, server, "out_remote")), quiet=True)
+    run_config(load_config(_remote(scn, server, "out_remote")))
     remote = _nr(tmp_path, "out_remote")
     np.testing.assert_array_equal(np.isnan(remote), np.isnan(local))
     ok = ~np.isnan(local)
@@ -176,12 +176,12 @@ def test_config_given_as_a_url_resolves_inputs_beside_it(tmp_path):
     from scenario import make_scenario, read
 
     scn = make_scenario(tmp_path / "served", shape=(64, 80), chunk=64, holes=False)
-    local = run_config(load_config(scn.config), quiet=True)
+    local = run_config(load_config(scn.config))
     expected = read(local.written[0])
     with FileServer(scn.folder) as server:
         cfg = load_config(server.url("config.yaml"), output_override=tmp_path / "from_url")
         assert cfg.scenes[0].layers["albedo"] == server.url("albedo.tif")
-        report = run_config(cfg, quiet=True)
+        report = run_config(cfg)
     got = read(report.written[0])
     np.testing.assert_array_equal(got, expected)
 

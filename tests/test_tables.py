@@ -10,7 +10,7 @@ import pytest
 
 from radledger import physics as p
 from radledger.errors import InputError, RadledgerError
-from radledger.tables import EmissivityTable, read_emissivity_table
+from radledger.io.tables import EmissivityTable, read_emissivity_table
 
 CONFIGS = Path(__file__).resolve().parents[1] / "configs" / "emissivity"
 
@@ -31,7 +31,7 @@ def test_worldcover_table_lists_every_class():
 
 
 def test_shipped_tables_are_plausible():
-    # Common practice (SCIENCE.md): water 0.96-0.99, crops and green leaves
+    # Common practice: water 0.96-0.99, crops and green leaves
     # 0.94-0.99, soils about 0.90-0.97, metals far lower.
     worldcover = read_emissivity_table(CONFIGS / "worldcover.csv")
     assert 0.96 <= worldcover[80] <= 0.99  # water

@@ -9,8 +9,8 @@ import rasterio
 from dask.callbacks import Callback
 
 from radledger.config import load_config
-from radledger.pipeline import job_graph
-from radledger.plan import make_plan
+from radledger.execution.graph import job_graph
+from radledger.planning.plan import make_plan
 from radledger.runner import run_config
 
 from scenario import make_scenario
@@ -23,7 +23,7 @@ def big_run(tmp_path_factory):
     folder = tmp_path_factory.mktemp("cog")
     scn = make_scenario(folder, shape=(1100, 1060), chunk=512)
     scn.write_config(**{"output.products": ["net_radiation", "quality"]})
-    run_config(load_config(scn.config), quiet=True)
+    run_config(load_config(scn.config))
     return folder / "out" / "scenes"
 
 
@@ -76,7 +76,7 @@ def test_building_the_graph_computes_nothing(tmp_path):
 
 def test_failed_run_leaves_nothing_at_final_paths(tmp_path, monkeypatch):
     scn = make_scenario(tmp_path)
-    import radledger.pipeline as pl
+    import radledger.execution.graph as pl
     calls = {"n": 0}
     real = pl.scene_kernel
 
@@ -88,7 +88,7 @@ def test_failed_run_leaves_nothing_at_final_paths(tmp_path, monkeypatch):
 
     monkeypatch.setattr(pl, "scene_kernel", flaky)
     with pytest.raises(RuntimeError, match="disk on fire"):
-        run_config(load_config(scn.config), quiet=True)
+        run_config(load_config(scn.config))
     out = tmp_path / "out"
     leftovers = [p for p in out.rglob("*") if p.is_file()]
     assert leftovers == []

@@ -17,10 +17,11 @@ from pyproj import Geod, Transformer
 from rasterio.windows import Window
 
 from helpers_rasters import utm_grid, write_raster
-from radledger.composite import read_product
+from radledger.io.lazy import read_product
 from radledger.errors import InputError, OutputError
 from radledger.grid import TargetGrid
-from radledger.zones import read_zones, write_zone_csv, zone_labels, zone_statistics
+from radledger.io.vectors import read_zones
+from radledger.outputs.zones import write_zone_csv, zone_labels, zone_statistics
 
 
 @pytest.fixture(scope="module")

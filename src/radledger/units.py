@@ -1,14 +1,15 @@
 """Unit names and the one conversion at the input edge.
 
 Internally radledger works in K, kPa, W m-2 (scenes), MJ m-2 day-1 (days),
-fractions 0..1 and metres.  ``K = degC + 273.15`` (SCIENCE.md convention).
+fractions 0..1 and metres.  ``K = degC + 273.15`` (the definition of the Celsius
+scale); the FAO-56 formulas are then applied to kelvin values as given.
 """
 
 from __future__ import annotations
 
 from .errors import ConfigError
 
-__all__ = ["UNIT_ALIASES", "canonical_unit", "to_internal", "INTERNAL_UNITS"]
+__all__ = ["UNIT_ALIASES", "canonical_unit", "to_internal"]
 
 # spelling variants a user may write -> canonical name
 UNIT_ALIASES: dict[str, str] = {
@@ -22,9 +23,6 @@ UNIT_ALIASES: dict[str, str] = {
     "1": "1", "fraction": "1", "": "1",
     "m": "m", "metre": "m", "meter": "m", "metres": "m", "meters": "m",
 }
-
-INTERNAL_UNITS = {"K": "K", "degC": "K", "kPa": "kPa", "hPa": "kPa", "Pa": "kPa",
-                  "W m-2": "W m-2", "MJ m-2 day-1": "MJ m-2 day-1", "%": "%", "1": "1", "m": "m"}
 
 # (factor, offset): internal = value * factor + offset
 _TO_INTERNAL = {

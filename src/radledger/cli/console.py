@@ -1,0 +1,153 @@
+"""All the text the command line prints: the plan, run events, progress bars and the closing table."""
+
+from __future__ import annotations
+
+import sys
+import time
+
+from dask.callbacks import Callback
+
+from .._version import __version__
+from ..execution.events import RunEvents
+from ..execution.graph import ValueSummary
+from ..kinds import TimeKind
+from ..planning.checks import human_bytes
+
+__all__ = ["describe_plan", "ConsoleEvents", "summary_table", "where_everything_went"]
+
+
+def describe_plan(plan) -> str:
+    """What ``radledger check`` prints: the config, grid, methods, outputs and every job."""
+    cfg = plan.cfg
+    lines = [f"config:  {cfg.path}", f"title:   {cfg.title}", f"grid:    {plan.grid.describe()}",
+             f"methods: sky emissivity {cfg.methods.sky_emissivity}, clouds {cfg.methods.clouds}, "
+             f"clear-sky shortwave {cfg.methods.clear_sky_shortwave}, scene to day "
+             f"{cfg.methods.scene_to_day}",
+             f"output:  {plan.out} ({', '.join(cfg.output.products)}; {cfg.output.compression})"]
+    n_scene = sum(j.kind is TimeKind.SCENES for j in plan.jobs)
+    n_day = len(plan.jobs) - n_scene
+    lines.append(f"jobs:    {n_scene} scene(s), {n_day} day(s), {len(cfg.composites)} composite(s)"
+                 + (f", zones from {cfg.zones.path}" if cfg.zones else ""))
+    for j in plan.jobs:
+        modelled = " (clear-sky shortwave modelled)" if j.kind == "scenes" and \
+            "shortwave_down" not in j.sources else ""
+        lines.append(f"  {j.kind.singular:5s} {j.label}: {len(j.outputs)} product(s){modelled}")
+    for c in cfg.composites:
+        lines.append(f"  composite {c.name}: {c.source} {c.start} .. {c.end} "
+                     f"({', '.join(c.statistics)}; min_count {c.min_count})")
+    lines.append(f"estimated output size: {human_bytes(plan.estimated_bytes())}")
+    return "\n".join(lines)
+
+
+class ConsoleEvents(RunEvents):
+    """Run events as lines on stdout; a progress bar on stderr when it is a terminal."""
+
+    def __init__(self, stream=None, *, progress: bool | None = None):
+        self.stream = stream or sys.stdout
+        self.show_progress = sys.stderr.isatty() if progress is None else progress
+
+    def say(self, text: str) -> None:
+        print(text, file=self.stream, flush=True)
+
+    def started(self, plan, engine) -> None:
+        self.say(f"radledger {__version__}: {len(plan.jobs)} job(s) on {engine.kind}; grid {plan.grid.describe()}")
+
+    def swept(self, paths) -> None:
+        self.say(f"removed {len(paths)} temporary file(s) left by an interrupted run")
+
+    def job_done(self, result) -> None:
+        job = result.job
+        if result.written:
+            self.say(f"  {job.kind.singular} {job.label}: wrote {len(result.written)} product(s)")
+        elif result.skipped:
+            self.say(f"  {job.kind.singular} {job.label}: up to date, skipped")
+
+    def stage_done(self, stage: str, written: int, skipped: int = 0) -> None:
+        if stage.startswith("composite "):
+            self.say(f"  {stage}: wrote {written}, up to date {skipped}")
+        else:
+            what = {"zones": "table(s)", "netcdf": "stack(s)", "quicklooks": "PNG(s)"}.get(stage, "file(s)")
+            self.say(f"  {stage}: wrote {written} {what}")
+
+    def finished(self, report) -> None:
+        summary_table(report.results, self.stream)
+        self.say(f"done in {report.seconds:.1f} s: {len(report.written)} written, {len(report.skipped)} up to "
+                 f"date, under {report.plan.out}")
+
+    def progress(self, label: str):
+        return _Progress(label, sys.stderr) if self.show_progress else None
+
+    def remote(self, label: str, address: str) -> None:
+        if self.show_progress:
+            print(f"  {label}: running on {address}", file=sys.stderr, flush=True)
+
+
+def summary_table(results, stream=None) -> None:
+    """The closing table: min / mean / max per product and job."""
+    stream = stream or sys.stdout
+    rows = []
+    for r in results:
+        job = f"{r.job.kind.singular} {r.job.label}"
+        for n, s in r.summary.items():
+            if isinstance(s, ValueSummary):
+                rows.append((job, n, f"{s.min:.4g}" if s.count else "nan", f"{s.mean:.4g}",
+                             f"{s.max:.4g}" if s.count else "nan", f"{s.count}"))
+            else:
+                rows.append((job, n, "", "", "",
+                             f"{s.out_of_range} out of range, {s.input_missing} missing input"))
+    if not rows:
+        return
+    head = ("job", "product", "min", "mean", "max", "valid px / flags")
+    widths = [max(len(str(x[i])) for x in rows + [head]) for i in range(len(head))]
+    print("  ".join(h.ljust(w) for h, w in zip(head, widths)), file=stream)
+    print("  ".join("-" * w for w in widths), file=stream)
+    for row in rows:
+        print("  ".join(str(c).ljust(w) for c, w in zip(row, widths)), file=stream)
+
+
+def where_everything_went(report) -> None:
+    """The demo's closing lines: each output folder and the quicklook to open first."""
+    out = report.plan.out
+    groups = {}
+    for p in report.paths:
+        groups.setdefault(p.parent.name, []).append(p)
+    print("\nwhere everything went:")
+    for name in ("scenes", "days", "composites", "zones", "netcdf", "quicklooks"):
+        if name in groups:
+            print(f"  {out / name}/  ({len(groups[name])} files)")
+    ql = out / "quicklooks"
+    scenes = sorted(ql.glob("net_radiation_*T*.png")) if ql.exists() else []
+    if scenes:
+        print(f"net-radiation quicklooks: {ql}/net_radiation_*.png (e.g. {scenes[-1].name})")
+
+
+class _Progress(Callback):
+    """A one-line progress bar on stderr (only used on a terminal)."""
+
+    def __init__(self, label: str, stream):
+        super().__init__()
+        self.label, self.stream = label, stream
+        self.total = self.done = 0
+        self.t0 = time.monotonic()
+        self._last = 0.0
+
+    def _start_state(self, dsk, state):
+        self.total = len(state["ready"]) + len(state["waiting"]) + len(state["running"]) + \
+            len(state.get("finished", ()))
+
+    def _posttask(self, key, result, dsk, state, worker_id):
+        self.done += 1
+        now = time.monotonic()
+        if now - self._last > 0.2:
+            self._last = now
+            self._draw()
+
+    def _finish(self, dsk, state, errored):
+        self.done = self.total
+        self._draw(end="\n")
+
+    def _draw(self, end=""):
+        frac = self.done / self.total if self.total else 1.0
+        bar = "#" * int(frac * 30)
+        print(f"\r  {self.label:24s} [{bar:30s}] {frac * 100:5.1f}%  {time.monotonic() - self.t0:6.1f} s",
+              end=end, file=self.stream, flush=True)

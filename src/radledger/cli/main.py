@@ -1,0 +1,155 @@
+"""The ``radledger`` command: demo, run, check, info.
+
+Exit status: 0 success; 2 a problem with the user's config or inputs (one
+line per problem on stderr, no traceback unless ``--debug``); 1 anything
+unexpected; 130/143 when stopped by SIGINT/SIGTERM (only whole products are
+left behind: every product is written beside its target and renamed).
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import signal
+import sys
+import traceback
+from pathlib import Path
+
+from .._version import __version__
+from ..errors import Problems, RadledgerError
+
+__all__ = ["main"]
+
+
+class _Stopped(BaseException):
+    """Raised in the main thread by SIGTERM so cleanup code runs as for Ctrl-C."""
+
+    def __init__(self, signum: int):
+        super().__init__(signum)
+        self.signum = signum
+
+
+def _on_signal(signum, frame):
+    raise _Stopped(signum)
+
+
+def _on_interrupt(signum, frame):
+    raise KeyboardInterrupt
+
+
+def _install_handlers() -> dict:
+    """SIGTERM and SIGINT stop the run through the same cleanup.
+
+    SIGINT is installed explicitly: a process started from a script in the
+    background inherits SIGINT *ignored*, and Python then never raises
+    KeyboardInterrupt, so Ctrl-C / ``kill -INT`` would be lost.
+    """
+    old = {signal.SIGTERM: signal.signal(signal.SIGTERM, _on_signal),
+           signal.SIGINT: signal.signal(signal.SIGINT, _on_interrupt)}
+    return old
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(prog="radledger", description="Per-pixel surface net radiation maps "
+                                "(instantaneous W m-2 and FAO-56 daily MJ m-2 day-1) as cloud-optimised GeoTIFFs.")
+    p.add_argument("--version", action="version", version=f"radledger {__version__}")
+    p.add_argument("--debug", action="store_true", help="show tracebacks for every error")
+    sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    d = sub.add_parser("demo", help="run the whole job on the shipped sample tiles")
+    d.add_argument("--out", default="radledger-demo", help="output folder (default ./radledger-demo)")
+    d.add_argument("--overwrite", action="store_true", help="recompute products that are up to date")
+    d.add_argument("--quiet", action="store_true", help="print nothing but errors")
+
+    r = sub.add_parser("run", help="do everything CONFIG asks for")
+    r.add_argument("config", help="run config (YAML)")
+    r.add_argument("--scheduler", metavar="ADDRESS", default=None,
+                   help="address of a running dask.distributed scheduler, e.g. tcp://host:8786 "
+                        "(default: $DASK_SCHEDULER_ADDRESS, else local threads)")
+    r.add_argument("--overwrite", action="store_true", help="recompute products that are up to date")
+    r.add_argument("--quiet", action="store_true", help="no progress and no summary")
+    r.add_argument("--force", action="store_true", help="run even if the products may not fit on the disk")
+
+    c = sub.add_parser("check", help="validate CONFIG and every input, print the plan, compute nothing")
+    c.add_argument("config")
+
+    i = sub.add_parser("info", help="print a product's quantity, units, method, time, grid and provenance")
+    i.add_argument("file")
+    return p
+
+
+def demo_config() -> Path:
+    """configs/demo.yaml of the source tree (the README installs radledger editable from it)."""
+    here = Path(__file__).resolve()
+    for root in (here.parents[3], Path.cwd()):
+        cand = root / "configs" / "demo.yaml"
+        if cand.exists():
+            return cand
+    raise RadledgerError("configs/demo.yaml not found; run `radledger demo` from a clone of the radledger "
+                         "repository (pip install -e .)")
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = _parser().parse_args(argv)
+    old = _install_handlers()
+    try:
+        return _dispatch(args)
+    except Problems as exc:
+        for p in exc.problems:
+            print(f"error: {p}", file=sys.stderr)
+        if args.debug:
+            traceback.print_exc()
+        print(f"radledger: {len(exc.problems)} problem(s); nothing was written", file=sys.stderr)
+        return 2
+    except RadledgerError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        if args.debug:
+            traceback.print_exc()
+        return 2
+    except KeyboardInterrupt:
+        print("\nradledger: interrupted; finished products are kept, unfinished ones removed", file=sys.stderr)
+        return 130
+    except _Stopped as exc:
+        print(f"radledger: stopped by signal {exc.signum}; finished products are kept, unfinished ones removed",
+              file=sys.stderr)
+        return 128 + exc.signum
+    except Exception:  # a bug: say so, with the traceback
+        traceback.print_exc()
+        print("radledger: unexpected error (a bug); please report it with the traceback above", file=sys.stderr)
+        return 1
+    finally:
+        for sig, handler in old.items():
+            signal.signal(sig, handler)
+
+
+def _dispatch(args) -> int:
+    from ..config import load_config
+    from .console import ConsoleEvents, describe_plan, where_everything_went
+
+    if args.command == "info":
+        from ..outputs.info import describe_product
+        print(describe_product(args.file))
+        return 0
+    if args.command == "check":
+        from ..planning.plan import make_plan
+        cfg = load_config(args.config)
+        plan = make_plan(cfg)
+        print(describe_plan(plan))
+        print("check: config and inputs OK; nothing computed")
+        return 0
+    from ..runner import run_config
+    from ..execution.events import RunEvents
+    events = RunEvents() if args.quiet else ConsoleEvents()
+    if args.command == "demo":
+        cfg = load_config(demo_config(), output_override=os.path.abspath(args.out))
+        report = run_config(cfg, overwrite=args.overwrite, events=events)
+        if not args.quiet:
+            where_everything_went(report)
+        return 0
+    cfg = load_config(args.config)
+    run_config(cfg, overwrite=args.overwrite, scheduler=args.scheduler, force=args.force, events=events)
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,44 @@
+"""What a scene's or a day's kernel needs to know besides its input arrays."""
+
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass, field
+
+import numpy as np
+
+__all__ = ["SceneParams", "DayParams"]
+
+
+@dataclass(frozen=True)
+class SceneParams:
+    time: dt.datetime
+    products: tuple[str, ...]
+    sky_emissivity: str = "brutsaert"
+    clouds: str = "none"
+    clear_sky_shortwave: str = "fao56"
+    emissivity_lut: np.ndarray | None = field(default=None, compare=False)
+    emissivity_constant: float | None = None
+    emissivity_unknown: float | None = None      # for classes not in the table; None = stop with an error
+    land_cover_path: str = ""                    # for the error message
+    emissivity_table: str = ""
+    scene_to_day: str = "none"                   # none | sinusoidal | shortwave-ratio
+
+    @property
+    def day_of_year(self) -> int:
+        return self.time.timetuple().tm_yday
+
+    @property
+    def utc_hour(self) -> float:
+        t = self.time
+        return t.hour + t.minute / 60 + t.second / 3600
+
+
+@dataclass(frozen=True)
+class DayParams:
+    date: dt.date
+    products: tuple[str, ...]
+
+    @property
+    def day_of_year(self) -> int:
+        return self.date.timetuple().tm_yday

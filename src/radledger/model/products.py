@@ -1,0 +1,97 @@
+"""What each product is: quantity, units, CF names, data type and how to draw it.
+
+One table, used by the pipeline (which products exist), the writers (tags,
+NetCDF attributes) and the quicklooks (colour map, diverging or not).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from ..kinds import TimeKind
+
+__all__ = ["Product", "SCENE_PRODUCTS", "DAY_PRODUCTS", "DEFAULT_PRODUCTS", "product_info",
+           "QUALITY_BITS", "QUALITY_NODATA", "COMPOSITE_STATISTICS", "ALL_PRODUCT_NAMES"]
+
+# quality: uint8 bit flags; 255 marks pixels outside the grid's data (never set otherwise).
+QUALITY_NODATA = 255
+
+
+@dataclass(frozen=True)
+class Product:
+    name: str
+    long_name: str
+    units: str                 # as written in tags / NetCDF (udunits-parsable)
+    standard_name: str | None  # CF standard name, or None where the table has none
+    dtype: str = "float32"
+    diverging: bool = False    # quicklook colour map centred on zero
+    positive: str = ""         # sign convention in words
+
+    @property
+    def is_flags(self) -> bool:
+        """Bit flags (uint8): overviews by nearest pixel, a declared nodata, a legend, no statistics."""
+        return self.dtype == "uint8"
+
+    @property
+    def nodata(self) -> float:
+        return QUALITY_NODATA if self.is_flags else float("nan")
+
+
+_W = "W m-2"
+_MJ = "MJ m-2 day-1"
+
+# Scene (instantaneous) products [W m-2 unless stated].  Sign convention of the
+# project: positive = energy gained by the surface, except net_longwave, which
+# keeps the FAO-56 sense (positive = net loss) and so maps to CF's "upward" name.
+SCENE_PRODUCTS: dict[str, Product] = {p.name: p for p in [
+    Product("net_radiation", "surface net radiation", _W, "surface_net_downward_radiative_flux",
+            diverging=True, positive="downward (gain by the surface)"),
+    Product("net_shortwave", "surface net shortwave radiation", _W, "surface_net_downward_shortwave_flux",
+            positive="downward (absorbed)"),
+    Product("net_longwave", "surface net longwave loss", _W, "surface_net_upward_longwave_flux",
+            diverging=True, positive="upward (loss by the surface)"),
+    Product("longwave_down", "downwelling longwave at the surface", _W, "surface_downwelling_longwave_flux_in_air"),
+    Product("longwave_up", "longwave leaving the surface (emitted + reflected)", _W,
+            "surface_upwelling_longwave_flux_in_air"),
+    Product("surface_emissivity", "broadband surface emissivity", "1", "surface_longwave_emissivity"),
+    Product("sky_emissivity", "effective atmospheric emissivity", "1", None),
+    Product("quality", "quality bit flags", "1", None, dtype="uint8"),
+]}
+
+# Day products [MJ m-2 day-1].  CF treats MJ m-2 day-1 as a flux convertible to W m-2.
+DAY_PRODUCTS: dict[str, Product] = {p.name: p for p in [
+    Product("net_radiation", "daily surface net radiation", _MJ, "surface_net_downward_radiative_flux",
+            diverging=True, positive="downward (gain by the surface)"),
+    Product("net_shortwave", "daily surface net shortwave radiation", _MJ, "surface_net_downward_shortwave_flux",
+            positive="downward (absorbed)"),
+    Product("net_longwave", "daily surface net longwave loss", _MJ, "surface_net_upward_longwave_flux",
+            diverging=True, positive="upward (loss by the surface)"),
+    Product("clear_sky_shortwave", "daily clear-sky shortwave (FAO-56 Rso)", _MJ,
+            "surface_downwelling_shortwave_flux_in_air_assuming_clear_sky"),
+    Product("quality", "quality bit flags", "1", None, dtype="uint8"),
+]}
+
+DEFAULT_PRODUCTS = ("net_radiation", "net_shortwave", "net_longwave", "quality")
+ALL_PRODUCT_NAMES = tuple(dict.fromkeys(list(SCENE_PRODUCTS) + list(DAY_PRODUCTS)))
+
+#: per-pixel statistics a composite may ask for (see outputs/composites.py)
+COMPOSITE_STATISTICS = ("mean", "median", "min", "max", "sum", "std", "count", "total")
+
+QUALITY_BITS: dict[str, int] = {
+    "input_missing": 1,          # an input the pixel needs is nodata or off its footprint
+    "out_of_range": 2,           # an input value outside its physical range (set to NaN)
+    "modelled_shortwave": 4,     # shortwave_down modelled as clear sky (no shortwave grid given)
+    "cloud_corrected": 8,        # Crawford-Duchon cloud fraction 1 - Rs/Rso >= 0.1 (sky emissivity raised)
+    "emissivity_default": 16,    # land-cover class missing from the table, `unknown` value used
+    "sun_down": 32,              # sun below the horizon at the scene time
+    "shortwave_capped": 64,      # Rs/Rso > 1 capped (days) or Rs > Rs_clear (scenes)
+}
+
+
+def product_info(name: str, kind: TimeKind) -> Product:
+    """The :class:`Product` of ``name`` for ``kind``."""
+    table = SCENE_PRODUCTS if TimeKind(kind) is TimeKind.SCENES else DAY_PRODUCTS
+    try:
+        return table[name]
+    except KeyError:
+        raise KeyError(f"unknown {kind} product {name!r}; valid: {', '.join(table)}") from None

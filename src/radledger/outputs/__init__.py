@@ -1,0 +1,1 @@
+"""Products built from finished products: per-pixel statistics, composites, zone tables, NetCDF stacks,\nquicklook maps and `radledger info`."""

@@ -1,0 +1,111 @@
+"""A product's identity and provenance: what it depends on (the settings hash) and its tags.
+
+One tag builder serves every product kind (scenes, days, scene-derived days,
+composites), so every GeoTIFF states its quantity, units, method, time,
+inputs, software version and settings hash the same way.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import hashlib
+import json
+import os
+
+from .._version import __version__
+from ..config import CompositeSpec, Config
+from ..io.rasters import LayerSource
+from ..kinds import TimeKind
+from ..model.products import QUALITY_BITS, Product, product_info
+
+__all__ = ["file_fingerprint", "sources_fingerprint", "settings_hash", "product_tags", "job_product_tags",
+           "composite_tags"]
+
+
+def file_fingerprint(path: str) -> list:
+    try:
+        st = os.stat(path)
+        return [path, st.st_size, st.st_mtime_ns]
+    except OSError:
+        return [path]
+
+
+def sources_fingerprint(srcs: dict[str, LayerSource]) -> list:
+    """What a product depends on in its inputs: each file (size, mtime) and its decoding."""
+    return [file_fingerprint(s.path) + [s.scale, s.offset, s.nodata, s.factor, s.shift, s.resampling]
+            for s in srcs.values()]
+
+
+def settings_hash(*parts) -> str:
+    text = json.dumps(parts, sort_keys=True, default=str)
+    return hashlib.sha256(text.encode()).hexdigest()[:20]
+
+
+def product_tags(product: Product, *, quantity: str | None = None, method: str, time: str, time_kind: str,
+                 inputs: str, title: str, settings_hash: str, long_name: str | None = None,
+                 units: str | None = None, standard_name: str | None = None,
+                 extra: dict | None = None) -> dict[str, str]:
+    """The tags every radledger GeoTIFF carries (``radledger info`` prints them)."""
+    tags = {
+        "quantity": quantity or product.name,
+        "long_name": long_name if long_name is not None else product.long_name,
+        "units": units if units is not None else product.units,
+        "standard_name": standard_name if standard_name is not None else (product.standard_name or ""),
+        "positive": product.positive, "method": method, "time": time, "time_kind": time_kind,
+        "title": title, "inputs": inputs, "software": f"radledger {__version__}",
+        "settings_hash": settings_hash,
+        "created": dt.datetime.now(dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"),
+    }
+    if product.is_flags:
+        tags["flag_masks"] = " ".join(str(v) for v in QUALITY_BITS.values())
+        tags["flag_meanings"] = " ".join(QUALITY_BITS)
+    if extra:
+        tags.update(extra)
+    return tags
+
+
+def _scene_method(cfg: Config) -> str:
+    m = cfg.methods
+    return (f"Rn = (1 - albedo) Rs - eps_s (sigma Ts^4 - Rld); Rld = eps_sky sigma Ta^4; "
+            f"sky emissivity {m.sky_emissivity}; clouds {m.clouds}; clear-sky shortwave "
+            f"{m.clear_sky_shortwave}; sigma 5.670374419e-8 (CODATA 2018)")
+
+
+DAY_METHOD = "FAO-56 (Allen et al. 1998) eqs 21, 37, 38, 39, 40; 24-hour total"
+
+
+def job_product_tags(cfg: Config, job, name: str) -> dict[str, str]:
+    """Tags of product ``name`` of a scene or day job (``daily_net_radiation``: a scene's day product)."""
+    inputs = "; ".join(f"{k}={s.path}" for k, s in sorted(job.sources.items()))
+    common = dict(title=cfg.title, inputs=inputs, settings_hash=job.settings_hash)
+    if name == "daily_net_radiation":
+        total = "daytime total" if cfg.methods.scene_to_day == "sinusoidal" else "24-hour total"
+        return product_tags(product_info("net_radiation", TimeKind.DAYS), quantity=name,
+                            method=f"scene to day: {cfg.methods.scene_to_day} ({total}) from the "
+                                   f"{job.when.strftime('%Y-%m-%dT%H:%MZ')} scene",
+                            time=job.when.date().isoformat(), time_kind=str(TimeKind.DAYS),
+                            extra={"daily_total": total}, **common)
+    product = product_info(name, job.kind)
+    if job.kind is TimeKind.SCENES:
+        return product_tags(product, method=_scene_method(cfg), time=job.when.strftime("%Y-%m-%dT%H:%M:%SZ"),
+                            time_kind=str(job.kind), **common)
+    return product_tags(product, method=DAY_METHOD, time=job.when.isoformat(), time_kind=str(job.kind),
+                        **common)
+
+
+def composite_tags(cfg: Config, comp: CompositeSpec, statistic: str, members: list, settings_hash: str
+                   ) -> dict[str, str]:
+    """Tags of one statistic file of a composite over ``members`` (their paths)."""
+    base = product_info("net_radiation", comp.source)
+    one_signed = statistic in ("count", "total")
+    return product_tags(
+        base, quantity=f"net_radiation {statistic}",
+        units={"count": "1", "total": "MJ m-2"}.get(statistic, base.units),
+        standard_name="" if one_signed else None,
+        long_name=f"{statistic} of {base.long_name} over {comp.start}..{comp.end}",
+        method=f"per-pixel {statistic} over valid dates; min_count {comp.min_count}"
+               + ("; total = mean x days in window" if statistic == "total" else ""),
+        time=f"{comp.start.isoformat()}/{comp.end.isoformat()}", time_kind="composites",
+        inputs="; ".join(str(p) for p in members), title=cfg.title, settings_hash=settings_hash,
+        extra={"statistic": statistic, "window_days": str(comp.window_days), "members": str(len(members)),
+               **({"positive": ""} if statistic in ("count", "std") else {})})
