@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from radledger.tables import read_emissivity_table
+from radledger.io.tables import read_emissivity_table
 
 CONFIGS = Path(__file__).resolve().parents[1] / "configs" / "emissivity"
 

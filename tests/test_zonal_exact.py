@@ -10,7 +10,7 @@ import pytest
 import shapely
 from affine import Affine
 
-from radledger.zonal_exact import (
+from radledger.outputs.zonal_exact import (
     ZoneMoments,
     coverage_fractions,
     fold_window,

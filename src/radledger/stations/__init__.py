@@ -12,8 +12,8 @@ Pure numeric core, no file reading and no config:
   values.
 """
 
-from radledger.stations.agreement import Agreement, agreement
-from radledger.stations.gridding import (
+from .agreement import Agreement, agreement
+from .gridding import (
     METHODS,
     MIN_STATIONS,
     TRENDS,

@@ -65,8 +65,8 @@ from typing import Any
 
 import numpy as np
 
-from radledger.errors import InputError
-from radledger.stations.agreement import agreement
+from ..errors import InputError
+from .agreement import agreement
 
 __all__ = [
     "METHODS",
