@@ -28,6 +28,7 @@ from .daily import (
     sinusoidal_daily_bisht_2005,
 )
 from .ephemeris import (
+    sun_distance,
     DELTA_T,
     extraterrestrial_instant_precise,
     julian_day,
@@ -117,6 +118,7 @@ __all__ = [
     "michalsky_1988",
     "sun_position",
     "extraterrestrial_instant_precise",
+    "sun_distance",
     # shortwave
     "net_shortwave",
     "atmospheric_pressure",

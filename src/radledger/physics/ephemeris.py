@@ -51,6 +51,7 @@ __all__ = [
     "michalsky_1988",
     "sun_position",
     "extraterrestrial_instant_precise",
+    "sun_distance",
 ]
 
 #: Terrestrial Time minus Universal Time used by default [s]; 67 s is
@@ -203,6 +204,25 @@ def extraterrestrial_instant_precise(
     """
     sin_e, _, _, radius = _topocentric(latitude, longitude, time, elevation, delta_t)
     return solar_constant / (radius * radius) * np.maximum(sin_e, 0.0)
+
+
+def sun_distance(time, *, delta_t=DELTA_T) -> float:
+    """Earth-Sun distance at one instant, NREL SPA (Reda & Andreas 2004) [1].
+
+    Parameters
+    ----------
+    time : datetime.datetime, numpy.datetime64 or str
+        The instant, as for :func:`sun_position`.
+    delta_t : float, optional
+        Terrestrial Time minus UT1, see :data:`DELTA_T` [s].
+
+    Returns
+    -------
+    r : float
+        Distance in astronomical units [AU]; the extraterrestrial irradiance
+        normal to the beam is ``G_sc / r^2``.
+    """
+    return _geocentric_sun(_unix_seconds(time), float(delta_t))[3]
 
 
 def julian_day(year, day_of_year, utc_hour):

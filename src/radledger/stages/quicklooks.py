@@ -6,11 +6,17 @@ from pathlib import Path
 
 from ..io.cog import read_tags
 from ..io.vectors import read_zones
-from ..model.products import QUALITY_BITS
 from ..outputs.quicklooks import write_quicklook
 from ..planning.plan import Plan
 
 __all__ = ["run_quicklooks"]
+
+
+def _flags_of(tags: dict) -> dict[str, int] | None:
+    """The bit meanings a flag product states in its own tags (None for other products)."""
+    if not tags.get("flag_meanings"):
+        return None
+    return dict(zip(tags["flag_meanings"].split(), (int(m) for m in tags["flag_masks"].split())))
 
 
 def _quicklook_args(path: Path) -> dict:
@@ -26,7 +32,7 @@ def _quicklook_args(path: Path) -> dict:
         title += " (clear-sky shortwave modelled)"
     return dict(title=title, units=tags.get("units", ""),
                 diverging=base in ("net_radiation", "net_longwave") and stat not in ("count", "std"),
-                categorical_bits=QUALITY_BITS if tags.get("flag_meanings") else None)
+                categorical_bits=_flags_of(tags))
 
 
 def run_quicklooks(plan: Plan, products: list[Path], *, overwrite: bool = False) -> list[Path]:
