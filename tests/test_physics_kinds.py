@@ -33,6 +33,17 @@ def ints(a, b):
 
 # name -> (callable, positional NumPy arrays, keyword arguments kept scalar)
 CASES = {
+    # terrain, pixel by pixel (the grid and daily terrain functions take NumPy only: see not_arrays)
+    "cos_incidence": (p.cos_incidence, [lin(0, 45), lin(0, 359), lin(10, 80), lin(90, 270)], {}),
+    "erbs_1982": (p.erbs_1982, [lin(50, 900), lin(10, 80), lin(1320, 1410)], {}),
+    "sky_view_factor_plane": (p.sky_view_factor_plane, [lin(0, 60)], {}),
+    "incident_shortwave_isotropic": (p.incident_shortwave_isotropic,
+                                     [lin(100, 800), lin(50, 200), lin(200, 900), lin(0, 1), lin(0.7, 1),
+                                      lin(0.1, 0.5)], {}),
+    "longwave_down_terrain": (p.longwave_down_terrain, [lin(250, 400), lin(0.6, 1), lin(260, 310), lin(0.9, 1)], {}),
+    "snow_emissivity_blend": (p.snow_emissivity_blend, [lin(0.9, 0.98), lin(0, 1)], {}),
+    "snow_fraction_from_ndsi": (p.snow_fraction_from_ndsi, [lin(-0.5, 0.9)], {}),
+    "clear_sky_beam_diffuse_indices": (p.clear_sky_beam_diffuse_indices, [lin(0.1, 1), lin(70, 101), lin(5, 40)], {}),
     "inverse_relative_distance": (p.inverse_relative_distance, [ints(1, 366)], {}),
     "solar_declination": (p.solar_declination, [ints(1, 366)], {}),
     "seasonal_correction": (p.seasonal_correction, [ints(1, 366)], {}),
@@ -176,6 +187,10 @@ def test_every_public_array_function_is_covered():
         "day_of_year", "build_lookup", "missing_classes", "BEAM_DIFFUSE_COEFFICIENTS",
         "SKY_EMISSIVITY_MODELS", "CLOUD_MODELS", "fao56_net_radiation_components_daily",
         "sun_distance",   # one instant in, one number out
+        # grids (need neighbours) and daily terrain integrals: NumPy only, documented
+        "horn_1981_slope_aspect", "horizon_angles", "horizon_at", "cast_shadow", "shadow_mask",
+        "dozier_frew_1990_sky_view_factor", "halo_pixels", "clear_sky_daily_slope_flat",
+        "clear_sky_slope_ratio_daily",
     }
     constants = {name for name in p.__all__ if name.isupper()}
     assert set(p.__all__) - not_arrays - constants <= {name.split(" ")[0] for name in CASES}

@@ -66,13 +66,34 @@ from .longwave import (
     surface_emission,
     swinbank_1963,
 )
+from .daily_terrain import clear_sky_daily_slope_flat, clear_sky_slope_ratio_daily
+from .horizon import (
+    cast_shadow,
+    dozier_frew_1990_sky_view_factor,
+    halo_pixels,
+    horizon_angles,
+    horizon_at,
+    shadow_mask,
+)
 from .shortwave import (
     BEAM_DIFFUSE_COEFFICIENTS,
     atmospheric_pressure,
+    clear_sky_beam_diffuse_indices,
     clear_sky_shortwave_beam_diffuse,
     clear_sky_shortwave_fao56,
     net_shortwave,
     precipitable_water,
+)
+from .terrain import (
+    SNOW_EMISSIVITY,
+    cos_incidence,
+    erbs_1982,
+    horn_1981_slope_aspect,
+    incident_shortwave_isotropic,
+    longwave_down_terrain,
+    sky_view_factor_plane,
+    snow_emissivity_blend,
+    snow_fraction_from_ndsi,
 )
 from .solar import (
     cos_zenith,
@@ -91,6 +112,25 @@ from .solar import (
 )
 
 __all__ = [
+    # terrain
+    "SNOW_EMISSIVITY",
+    "cos_incidence",
+    "erbs_1982",
+    "horn_1981_slope_aspect",
+    "incident_shortwave_isotropic",
+    "longwave_down_terrain",
+    "sky_view_factor_plane",
+    "snow_emissivity_blend",
+    "snow_fraction_from_ndsi",
+    "cast_shadow",
+    "dozier_frew_1990_sky_view_factor",
+    "halo_pixels",
+    "horizon_angles",
+    "horizon_at",
+    "shadow_mask",
+    "clear_sky_daily_slope_flat",
+    "clear_sky_slope_ratio_daily",
+    "clear_sky_beam_diffuse_indices",
     # constants
     "STEFAN_BOLTZMANN",
     "STEFAN_BOLTZMANN_DAILY",
