@@ -85,6 +85,7 @@ class _Handler(BaseHTTPRequestHandler):
 
     def _plain(self, status: int, text: str, body: bool, extra: dict | None = None) -> None:
         data = text.encode()
+        self._record(status, 0)      # before answering, so a client that returns at once sees it recorded
         self.send_response(status)
         self.send_header("Content-Type", "text/plain")
         self.send_header("Content-Length", str(len(data)))
@@ -93,7 +94,6 @@ class _Handler(BaseHTTPRequestHandler):
         self.end_headers()
         if body:
             self.wfile.write(data)
-        self._record(status, 0)      # an error text, not bytes of the file
 
     def _serve(self, body: bool) -> None:
         rel = urllib.parse.unquote(urllib.parse.urlsplit(self.path).path).lstrip("/")

@@ -378,8 +378,8 @@ def test_url_config_resolves_relative_paths_against_url(served):
     root, server = served
     write(root, SCENE)
     cfg = load_config(server.url("run.yaml"))
-    assert cfg.scenes[0].layers["albedo"] == server.url("albedo.tif")
-    assert cfg.static["land_cover"] == server.url("lc.tif")
+    assert cfg.scenes[0].layers["albedo"].path == server.url("albedo.tif")
+    assert cfg.static["land_cover"].path == server.url("lc.tif")
 
 
 # --- what a valid config gives ------------------------------------------------------------------------
@@ -416,8 +416,8 @@ def test_minimal_config_loads_with_documented_defaults(tmp_path):
     assert c.output.netcdf is False and c.output.quicklooks is False
     assert c.zones is None and c.days == () and c.composites == ()
     # README: paths are relative to the config file; static layers serve every date
-    assert c.scenes[0].layers["albedo"] == str(tmp_path.resolve() / "albedo.tif")
-    assert c.scenes[0].layers["land_cover"] == str(tmp_path.resolve() / "lc.tif")
+    assert c.scenes[0].layers["albedo"].path == str(tmp_path.resolve() / "albedo.tif")
+    assert c.scenes[0].layers["land_cover"].path == str(tmp_path.resolve() / "lc.tif")
 
 
 def test_composite_defaults_and_season_windows(tmp_path):

@@ -158,13 +158,13 @@ def test_daily_shortwave_as_a_mean_in_w_m2(tmp_path, units):
         cfg["layers"]["shortwave_down"] = {"units": "W m-2 daylight"}
     else:   # a 24-hour mean: given with the input itself (layers: W m-2 describes scenes)
         cfg["days"][0]["shortwave_down"] = {"path": "rs_mean.tif", "units": "W m-2"}
-        pytest.skip("inputs with their own units arrive with the season entries")
     scn.config.write_text(yaml.safe_dump(cfg))
     run_config(load_config(scn.config))
     rns = read(tmp_path / "out" / "days" / "net_shortwave_20260714.tif")
     from test_pipeline import _lonlat
     _, lat = _lonlat(scn)
-    rs_mj = 250.0 * _fao56_daylight_hours(lat, 195) * 3600 / 1e6
+    # daylight mean x N x 3600 s / 1e6, or a 24-hour mean x 86400 s / 1e6 (= x 0.0864)
+    rs_mj = 250.0 * (_fao56_daylight_hours(lat, 195) * 3600 if units == "W m-2 daylight" else 86400) / 1e6
     np.testing.assert_allclose(rns, (1 - scn.truth["albedo"]) * rs_mj, rtol=2e-4)
 
 

@@ -168,7 +168,7 @@ def test_check_reports_every_problem_at_once(scn, capsys):
 def test_check_good_config_prints_plan_and_computes_nothing(scn, capsys):
     code, out, err = _run_cli(capsys, "check", str(scn.config))
     assert code == 0, err
-    assert "scene 20260714T1810" in out and "nothing computed" in out
+    assert "scenes[0]: 1 times 2026-07-14T18:10Z" in out and "nothing computed" in out
     assert not (scn.folder / "out").exists()
 
 

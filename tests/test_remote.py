@@ -71,7 +71,7 @@ def test_remote_inputs_equal_local_inputs(tmp_path, serve):
 
     server = serve(tmp_path)
     cfg = load_config(_remote(scn, server, "out_remote"))
-    assert cfg.static["land_cover"].startswith("http://127.0.0.1:")
+    assert cfg.static["land_cover"].path.startswith("http://127.0.0.1:")
     assert not cfg.emissivity.table.startswith("http")          # the CSV table stays local
     report = run_config(cfg)
     assert len(report.written) == 4
@@ -182,7 +182,7 @@ def test_config_given_as_a_url_resolves_inputs_beside_it(tmp_path):
     expected = read(local.written[0])
     with FileServer(scn.folder) as server:
         cfg = load_config(server.url("config.yaml"), output_override=tmp_path / "from_url")
-        assert cfg.scenes[0].layers["albedo"] == server.url("albedo.tif")
+        assert cfg.scenes[0].layers["albedo"].path == server.url("albedo.tif")
         report = run_config(cfg)
     got = read(report.written[0])
     np.testing.assert_array_equal(got, expected)

@@ -65,6 +65,8 @@ def run_config(cfg: Config, *, overwrite: bool = False, scheduler: str | None = 
         if stale:
             events.swept(stale)
         events.started(plan, engine)
+        for label, why in plan.skipped:
+            events.warn(f"{label} skipped (on_missing: skip): {why}")
         report.results = run_jobs(plan, engine, overwrite=overwrite)
         for r in report.results:
             report.written += r.written

@@ -28,16 +28,58 @@ def describe_plan(plan) -> str:
     n_day = len(plan.jobs) - n_scene
     lines.append(f"jobs:    {n_scene} scene(s), {n_day} day(s), {len(cfg.composites)} composite(s)"
                  + (f", zones from {cfg.zones.path}" if cfg.zones else ""))
-    for j in plan.jobs:
-        modelled = " (clear-sky shortwave modelled)" if j.kind == "scenes" and \
-            "shortwave_down" not in j.sources else ""
-        lines.append(f"  {j.kind.singular:5s} {j.label}: {len(j.outputs)} product(s){modelled}"
-                     + "".join(f"; {n}" for n in j.notes))
+    lines += _entries(plan)
     for c in cfg.composites:
         lines.append(f"  composite {c.name}: {c.source} {c.start} .. {c.end} "
                      f"({', '.join(c.statistics)}; min_count {c.min_count})")
+    if plan.skipped:
+        lines.append(f"skipped (on_missing: skip): {len(plan.skipped)} date(s)")
+        lines += [f"  {label}: {why}" for label, why in plan.skipped]
     lines.append(f"estimated output size: {human_bytes(plan.estimated_bytes())}")
     return "\n".join(lines)
+
+
+def _span(jobs) -> str:
+    first, last = jobs[0].label, jobs[-1].label
+    what = "dates" if jobs[0].kind is TimeKind.DAYS else "times"
+    fmt = (lambda j: j.when.isoformat()) if jobs[0].kind is TimeKind.DAYS else \
+        (lambda j: j.when.strftime("%Y-%m-%dT%H:%MZ"))
+    return f"{len(jobs)} {what} {fmt(jobs[0])}" + (f" .. {fmt(jobs[-1])}" if first != last else "")
+
+
+def _source_text(src) -> str:
+    if hasattr(src, "scenes"):
+        return f"interpolated between scene albedos (max_gap {src.max_gap:g} days)"
+    if getattr(src, "variable", None):
+        return f"{src.path} variable {src.variable} [{src.units}]"
+    return f"{src.path}" + (f" [{src.units}]" if getattr(src, "units", "") else "")
+
+
+def _entries(plan) -> list[str]:
+    """Each config entry: the dates or times it expands to and the inputs resolved for them."""
+    by_entry: dict[str, list] = {}
+    for j in plan.jobs:
+        by_entry.setdefault(j.entry or j.label, []).append(j)
+    specs = {e.key: e.layers for e in (*plan.cfg.scenes, *plan.cfg.days)}
+    lines = []
+    for entry, jobs in by_entry.items():
+        lines.append(f"  {entry}: {_span(jobs)}; {len(jobs[0].outputs)} product(s) each")
+        for layer in jobs[0].sources:
+            srcs = [j.sources[layer] for j in jobs if layer in j.sources]
+            paths = {getattr(s, "path", "") for s in srcs}
+            text = _source_text(srcs[0])
+            spec = specs.get(entry, {}).get(layer)
+            if len(paths) > 1:
+                template = spec.template if spec is not None and spec.template else "per date"
+                text = f"{template}: {len(paths)} files, {srcs[0].path} .. {srcs[-1].path}"
+            elif getattr(srcs[0], "steps", None) is not None and len(srcs) > 1:
+                text += f", steps {srcs[0].steps[0]} .. {srcs[-1].steps[-1]}"
+            lines.append(f"      {layer}: {text}")
+        notes = dict.fromkeys(n for j in jobs for n in j.notes)
+        lines += [f"      note: {n}" for n in notes]
+        if jobs[0].kind is TimeKind.SCENES and "shortwave_down" not in jobs[0].sources:
+            lines.append("      note: clear-sky shortwave modelled (no shortwave_down)")
+    return lines
 
 
 class WarningsOnly(RunEvents):
@@ -80,6 +122,8 @@ class ConsoleEvents(WarningsOnly):
 
     def finished(self, report) -> None:
         summary_table(report.results, self.stream)
+        for label, why in report.plan.skipped:
+            self.say(f"skipped (on_missing: skip): {label}: {why}")
         self.say(f"done in {report.seconds:.1f} s: {len(report.written)} written, {len(report.skipped)} up to "
                  f"date, under {report.plan.out}")
 

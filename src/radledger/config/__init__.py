@@ -6,8 +6,8 @@ field defaults of the dataclasses in schema.py (:data:`DEFAULTS` lists them).
 """
 
 from .load import load_config
-from .schema import (DEFAULTS, CompositeSpec, Config, Day, EmissivitySpec, GridSpec, LayerDecoding, Methods,
-                     OutputSpec, Scene, ZonesSpec)
+from .schema import (DEFAULTS, CompositeSpec, Config, Day, EmissivitySpec, GridSpec, InputSpec, LayerDecoding,
+                     Methods, OutputSpec, Scene, ZonesSpec)
 
 __all__ = ["load_config", "Config", "GridSpec", "LayerDecoding", "EmissivitySpec", "Methods", "Scene", "Day",
-           "CompositeSpec", "ZonesSpec", "OutputSpec", "DEFAULTS"]
+           "CompositeSpec", "ZonesSpec", "OutputSpec", "InputSpec", "DEFAULTS"]

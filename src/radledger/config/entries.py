@@ -1,11 +1,20 @@
-"""Validation of the dated entries: ``scenes:`` (instantaneous) and ``days:`` (FAO-56 daily)."""
+"""Validation of the dated entries: ``scenes:`` (instantaneous) and ``days:`` (FAO-56 daily).
+
+An entry covers one date or time, or many (``dates:`` ranges, ``times:`` lists or ``discover``); it
+expands into one :class:`Scene` or :class:`Day` per date or time, with templates filled in.
+"""
 
 from __future__ import annotations
 
 from ..model.layers import DAY_LAYERS, HUMIDITY_LAYERS, SCENE_LAYERS
-from .schema import Day, Scene
+from .dates import entry_dates, entry_times
+from .inputs import parse_input
+from .schema import Day, InputSpec, Scene
 
-__all__ = ["entries", "scenes", "days"]
+__all__ = ["entries", "scenes", "days", "ON_MISSING", "static"]
+
+ON_MISSING = ("error", "skip")
+STATIC_ONLY = ("land_cover", "elevation")
 
 
 def entries(v, value, section: str):
@@ -17,18 +26,34 @@ def entries(v, value, section: str):
     return value
 
 
-def _layers_of(v, entry: dict, key: str, allowed: tuple[str, ...], static: dict) -> dict[str, str]:
+def static(v, value, allowed) -> dict[str, InputSpec]:
+    """``static:``: inputs that serve every date (plain rasters or time stacks; no templates)."""
+    value = v.mapping(value, "static", allowed)
+    out = {}
+    for name, given in value.items():
+        if name in allowed:
+            spec = parse_input(v, given, f"static.{name}", name, placeholder=None)
+            if spec is not None:
+                if spec.interpolate:
+                    v.fail(f"static.{name}", "interpolate belongs to a days: entry")
+                    continue
+                out[name] = spec
+    return out
+
+
+def _layers_of(v, entry: dict, key: str, allowed: tuple[str, ...], static_layers: dict,
+               placeholder: str) -> dict[str, InputSpec]:
     layers = {}
     for name in allowed:
         if name in entry:
-            p = v.resolve(entry[name], f"{key}.{name}")
-            if p is not None:
-                layers[name] = p
-        elif name in static:
-            layers[name] = static[name]
-    for name in ("land_cover", "elevation"):
-        if name in static:
-            layers[name] = static[name]
+            spec = parse_input(v, entry[name], f"{key}.{name}", name, placeholder=placeholder)
+            if spec is not None:
+                layers[name] = spec
+        elif name in static_layers:
+            layers[name] = static_layers[name]
+    for name in STATIC_ONLY:
+        if name in static_layers:
+            layers[name] = static_layers[name]
     return layers
 
 
@@ -41,45 +66,49 @@ def _humidity(v, layers: dict, key: str, temperature: str) -> None:
         v.fail(key, f"relative_humidity needs {temperature}")
 
 
-def scenes(v, value, static) -> list[Scene]:
-    out, seen = [], set()
+def _on_missing(v, entry: dict, key: str) -> str:
+    return v.choice(entry.get("on_missing"), f"{key}.on_missing", ON_MISSING, "error")
+
+
+def scenes(v, value, static_layers) -> list[Scene]:
+    out, seen = [], {}
     for i, entry in enumerate(entries(v, value, "scenes")):
         key = f"scenes[{i}]"
-        entry = v.mapping(entry, key, ("time",) + SCENE_LAYERS)
-        t = v.time(entry.get("time"), f"{key}.time") if "time" in entry else None
-        if "time" not in entry:
-            v.fail(f"{key}.time", "missing; give the scene time in UTC, e.g. 2026-07-14T18:10:00Z")
-        layers = _layers_of(v, entry, key, SCENE_LAYERS, static)
+        entry = v.mapping(entry, key, ("time", "times", "on_missing") + SCENE_LAYERS)
+        layers = _layers_of(v, entry, key, SCENE_LAYERS, static_layers, "time")
         for need in ("albedo", "surface_temperature", "air_temperature"):
             if need not in layers:
                 v.fail(f"{key}.{need}", "missing; give a raster here or under static:")
         _humidity(v, layers, key, "air_temperature")
-        if t is not None:
+        templates = [s.path for n, s in layers.items() if n in entry and s.is_template]
+        on_missing = _on_missing(v, entry, key)
+        for t in entry_times(v, entry, key, templates):
             stamp = t.strftime("%Y%m%dT%H%M")
             if stamp in seen:
-                v.fail(f"{key}.time", f"{t.isoformat()} repeats an earlier scene time (to the minute)")
-            seen.add(stamp)
-            out.append(Scene(time=t, layers=layers, key=key))
-    return out
+                v.fail(f"{key}.time", f"{t.isoformat()} repeats an earlier scene time (to the minute, {seen[stamp]})")
+                continue
+            seen[stamp] = key
+            out.append(Scene(time=t, layers={n: s.at(t) for n, s in layers.items()}, key=key,
+                             on_missing=on_missing))
+    return sorted(out, key=lambda s: s.time)
 
 
-def days(v, value, static) -> list[Day]:
-    out, seen = [], set()
+def days(v, value, static_layers) -> list[Day]:
+    out, seen = [], {}
     for i, entry in enumerate(entries(v, value, "days")):
         key = f"days[{i}]"
-        entry = v.mapping(entry, key, ("date",) + DAY_LAYERS + ("air_temperature",))
-        d = v.date(entry.get("date"), f"{key}.date") if "date" in entry else None
-        if "date" not in entry:
-            v.fail(f"{key}.date", "missing; give the date, e.g. 2026-07-14")
-        layers = _layers_of(v, entry, key, DAY_LAYERS + ("air_temperature",), static)
+        entry = v.mapping(entry, key, ("date", "dates", "on_missing") + DAY_LAYERS + ("air_temperature",))
+        layers = _layers_of(v, entry, key, DAY_LAYERS + ("air_temperature",), static_layers, "date")
         for need in ("shortwave_down", "air_temperature_max", "air_temperature_min"):
             if need not in layers:
                 v.fail(f"{key}.{need}", "missing; give a raster here or under static:")
         # relative humidity on days uses the mean of Tmax and Tmin (FAO-56 eq. 19 form)
         _humidity(v, layers, key, "air_temperature_max")
-        if d is not None:
+        on_missing = _on_missing(v, entry, key)
+        for d in entry_dates(v, entry, key):
             if d in seen:
-                v.fail(f"{key}.date", f"{d} repeats an earlier day")
-            seen.add(d)
-            out.append(Day(date=d, layers=layers, key=key))
-    return out
+                v.fail(f"{key}.date", f"{d} repeats an earlier day ({seen[d]})")
+                continue
+            seen[d] = key
+            out.append(Day(date=d, layers={n: s.at(d) for n, s in layers.items()}, key=key, on_missing=on_missing))
+    return sorted(out, key=lambda d: d.date)

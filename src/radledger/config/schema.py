@@ -8,13 +8,13 @@ keys a YAML section may hold are its field names.
 from __future__ import annotations
 
 import datetime as dt
-from dataclasses import MISSING, dataclass, field, fields
+from dataclasses import MISSING, dataclass, field, fields, replace
 from pathlib import Path
 from typing import Any
 
 from ..model.products import DEFAULT_PRODUCTS
 
-__all__ = ["Config", "GridSpec", "LayerDecoding", "EmissivitySpec", "Methods", "Scene", "Day",
+__all__ = ["Config", "GridSpec", "LayerDecoding", "InputSpec", "EmissivitySpec", "Methods", "Scene", "Day",
            "CompositeSpec", "ZonesSpec", "OutputSpec", "DEFAULTS", "keys_of",
            "RESAMPLING", "CLEAR_SKY_MODELS", "SCENE_TO_DAY"]
 
@@ -57,11 +57,54 @@ class Methods:
     scene_to_day: str = "none"
 
 
+_STACK_SUFFIXES = (".nc", ".nc4", ".cdf", ".h5", ".hdf5", ".zarr", ".zarr/")
+
+
+@dataclass(frozen=True)
+class InputSpec:
+    """One input layer of an entry: a raster, a per-date template, a time stack or an interpolation."""
+    path: str | None = None          # resolved path or URL; may hold {date:FMT} / {time:FMT}
+    variable: str | None = None      # a time stack's variable (NetCDF, Zarr)
+    units: str | None = None         # canonical; given with the input itself, overrides layers:
+    scale: float | None = None       # overrides layers: and the file's own
+    offset: float | None = None
+    nodata: float | None = None
+    interpolate: str | None = None   # "scenes": a day's albedo between the scenes' albedos
+    max_gap: float | None = None     # [day] for interpolate
+    template: str | None = None      # the template a dated path was filled in from
+
+    @property
+    def is_stack(self) -> bool:
+        return self.variable is not None or (self.path or "").lower().rstrip("/").endswith(
+            tuple(s.rstrip("/") for s in _STACK_SUFFIXES))
+
+    @property
+    def is_template(self) -> bool:
+        return self.path is not None and ("{date" in self.path or "{time" in self.path)
+
+    def at(self, when) -> "InputSpec":
+        """This input for one date or time: a template's path filled in (strftime codes)."""
+        if not self.is_template:
+            return self
+        day = when.date() if isinstance(when, dt.datetime) else when
+        return replace(self, path=self.path.format(date=day, time=when), template=self.path)
+
+    def describe(self) -> str:
+        if self.interpolate:
+            return f"interpolated between {self.interpolate} (max_gap {self.max_gap:g} days)"
+        extra = [f"variable {self.variable}"] if self.variable else []
+        path = self.template or self.path
+        extra += [f"{k} {getattr(self, k)}" for k in ("units", "scale", "offset", "nodata")
+                  if getattr(self, k) is not None]
+        return path + (f" ({', '.join(extra)})" if extra else "")
+
+
 @dataclass(frozen=True)
 class Scene:
     time: dt.datetime             # UTC, tz-aware
-    layers: dict[str, str]        # layer -> GDAL path (static layers merged in)
+    layers: dict[str, InputSpec]  # layer -> input (static layers merged in), templates filled in
     key: str                      # config key path, e.g. "scenes[0]"
+    on_missing: str = "error"     # error | skip: a missing input stops the run or drops this scene
 
     @property
     def stamp(self) -> str:
@@ -71,8 +114,9 @@ class Scene:
 @dataclass(frozen=True)
 class Day:
     date: dt.date
-    layers: dict[str, str]
+    layers: dict[str, InputSpec]
     key: str
+    on_missing: str = "error"
 
     @property
     def stamp(self) -> str:
@@ -115,7 +159,7 @@ class Config:
     title: str
     grid: GridSpec
     layers: dict[str, LayerDecoding]
-    static: dict[str, str]
+    static: dict[str, InputSpec]
     emissivity: EmissivitySpec
     methods: Methods
     scenes: tuple[Scene, ...]

@@ -14,7 +14,7 @@ from ..units import canonical_unit
 from .schema import (CLEAR_SKY_MODELS, RESAMPLING, SCENE_TO_DAY, EmissivitySpec, GridSpec, LayerDecoding,
                      Methods, OutputSpec, ZonesSpec, keys_of)
 
-__all__ = ["layers", "static", "grid", "emissivity", "methods", "zones", "output"]
+__all__ = ["layers", "grid", "emissivity", "methods", "zones", "output"]
 
 
 def layers(v, value) -> dict[str, LayerDecoding]:
@@ -42,12 +42,6 @@ def layers(v, value) -> dict[str, LayerDecoding]:
         if out[name].scale == 0:
             v.fail(f"{key}.scale", "must not be 0")
     return out
-
-
-def static(v, value) -> dict[str, str]:
-    value = v.mapping(value, "static", ALL_LAYERS)
-    return {k: p for k, given in value.items() if k in ALL_LAYERS
-            for p in [v.resolve(given, f"static.{k}")] if p is not None}
 
 
 def grid(v, value, static) -> GridSpec:

@@ -16,6 +16,7 @@ from ..errors import ConfigError
 from ..io.paths import is_remote, is_url
 from ..model.needs import day_needs, scene_needs
 from . import composites as _composites, entries as _entries, sections as _sections
+from ..model.layers import ALL_LAYERS
 from .schema import Config, keys_of
 
 __all__ = ["Validator", "TOP_KEYS"]
@@ -154,7 +155,7 @@ class Validator:
             self.fail("title", "must be text")
             title = ""
         layers = _sections.layers(self, raw.get("layers"))
-        static = _sections.static(self, raw.get("static"))
+        static = _entries.static(self, raw.get("static"), ALL_LAYERS)
         grid = _sections.grid(self, raw.get("grid"), static)
         emissivity = _sections.emissivity(self, raw.get("emissivity"))
         methods = _sections.methods(self, raw.get("methods"))

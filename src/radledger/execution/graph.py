@@ -73,7 +73,9 @@ def target_product(job: Job, name: str) -> Product:
 def chunk_products(job: Job, grid: TargetGrid, window, names: tuple[str, ...], *,
                    reuse: bool = False) -> dict[str, np.ndarray]:
     """Every requested product of one chunk window (``reuse``: see :func:`model.kernels.scene_kernel`)."""
-    arrays = {k: s.read(grid, window) for k, s in job.sources.items()}
+    arrays = {}
+    for s in job.sources.values():
+        arrays.update(s.read_layers(grid, window))
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         if job.kind is TimeKind.SCENES:
             p = job.params

@@ -55,6 +55,9 @@ class LayerSource:
     def gdal_path(self) -> str:
         return gdal_path(self.path)
 
+    def read_layers(self, grid: TargetGrid, window: Window) -> dict[str, np.ndarray]:
+        return {self.layer: self.read(grid, window)}
+
     def read(self, grid: TargetGrid, window: Window) -> np.ndarray:
         """The decoded float32 values of ``window`` of ``grid``; NaN = missing/off-footprint."""
         with gdal_env():
@@ -212,6 +215,10 @@ def file_encoding(path: str, layer: str) -> FileEncoding:
         if ds.crs is None:
             raise InputError(f"{path}: layer {layer} has no CRS; assign one (e.g. gdal_edit.py -a_srs "
                              f"EPSG:xxxx {os.path.basename(path)})")
+        if ds.count > 1:
+            raise InputError(f"{path}: layer {layer} has {ds.count} bands; radledger reads one band per raster "
+                             f"file - give one file per date (a template such as "
+                             f"{{date:%Y%m%d}}) or a NetCDF/Zarr time stack as {{path: ..., variable: ...}}")
         return FileEncoding(scale=float(ds.scales[0]) if ds.scales else 1.0,
                             offset=float(ds.offsets[0]) if ds.offsets else 0.0,
                             nodata=ds.nodata)

@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from .. import physics as ph
+from .albedo import FILL_DEFAULT, FILL_HELD, FILL_INTERPOLATED, REFERENCE_ALBEDO
 from .fused import fused_scene
 from .layers import PHYSICAL_RANGES
 from .params import DayParams, SceneParams
@@ -20,8 +21,7 @@ from .surface import chunk_emissivity
 __all__ = ["scene_kernel", "day_kernel", "humidity_to_kpa", "clear_sky_shortwave"]
 
 B = {**SCENE_QUALITY_BITS, **DAY_QUALITY_BITS}  # the bits' names are unique across both kinds
-CLOUD_FLAG_FRACTION = 0.1
-REFERENCE_ALBEDO = 0.23     # FAO-56 grass reference albedo, used (and flagged) for days without an albedo   # Crawford-Duchon cloud fraction above which `cloud_corrected` is set
+CLOUD_FLAG_FRACTION = 0.1   # Crawford-Duchon cloud fraction above which `cloud_corrected` is set
 
 
 def _checked(arrays: dict, name: str, quality: np.ndarray, rng_key: str | None = None) -> np.ndarray:
@@ -163,7 +163,13 @@ def day_kernel(arrays: dict[str, np.ndarray], lat: np.ndarray, p: DayParams) -> 
     tmin = _checked(arrays, "air_temperature_min", q)
     ea = humidity_to_kpa(arrays, q, None, tmax, tmin)
     z = _checked(arrays, "elevation", q)
-    if "albedo" in arrays:
+    if "albedo_fill" in arrays:   # interpolated between scenes (model/albedo.py): never missing
+        albedo = arrays["albedo"]
+        fill = arrays["albedo_fill"]
+        q[fill == FILL_INTERPOLATED] |= B["albedo_interpolated"]
+        q[fill == FILL_HELD] |= B["albedo_held"]
+        q[fill == FILL_DEFAULT] |= B["albedo_default"]
+    elif "albedo" in arrays:
         albedo = _checked(arrays, "albedo", q)
     else:   # FAO-56's grass reference, flagged: snow, water and forest differ a lot
         albedo = np.float32(REFERENCE_ALBEDO)

@@ -33,7 +33,9 @@ SCENE_QUALITY_BITS: dict[str, int] = {
 DAY_QUALITY_BITS: dict[str, int] = {
     "input_missing": 1,
     "out_of_range": 2,
-    "albedo_default": 4,         # no albedo for the day: FAO-56's grass reference 0.23 used
+    "albedo_default": 4,         # no albedo for the day (or no scene within max_gap): FAO-56's 0.23 used
+    "albedo_interpolated": 8,    # albedo interpolated in time between the scenes before and after
+    "albedo_held": 16,           # albedo of the one scene within max_gap on one side only
     "shortwave_capped": 64,      # Rs/Rso above 1, held at 1 in the longwave term (FAO-56 eq. 39)
     "overcast_held": 128,        # Rs/Rso below 0.3, held at 0.3 (ASCE-EWRI 2005 limits)
 }

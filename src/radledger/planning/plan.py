@@ -8,30 +8,26 @@ collected, so ``radledger check`` reports them together.
 from __future__ import annotations
 
 import datetime as dt
-import hashlib
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
-from .._version import __version__
 from ..config import Config
 from ..errors import GridError, InputError, Problems, RadledgerError
 from ..grid import TargetGrid
 from ..io.gdalenv import gdal_env
 from ..io.paths import gdal_path
-from ..io.rasters import LayerSource, check_overlap, open_dataset
+from ..io.rasters import open_dataset
 from ..io.tables import read_emissivity_table
 from ..io.vectors import read_zones
 from ..kinds import TimeKind
-from ..model.needs import day_needs, scene_needs
 from ..model.params import DayParams, SceneParams
-from ..model.products import DAY_PRODUCTS, SCENE_DAY_PRODUCT, SCENE_PRODUCTS
+from ..model.products import SCENE_DAY_PRODUCT
 from ..model.surface import unknown_classes_message
 from ..physics.emissivity import build_lookup, missing_classes
-from .checks import check_sample, land_cover_classes, output_problems
-from .provenance import settings_hash, sources_fingerprint
-from .sources import layer_source
+from .checks import land_cover_classes, output_problems
+from .jobs import JobBuilder
 
 __all__ = ["Plan", "Job", "make_plan", "build_grid", "unknown_classes_error"]
 
@@ -42,12 +38,13 @@ class Job:
     kind: TimeKind
     label: str                         # e.g. 20260714T1810 or 20260714
     when: dt.datetime | dt.date
-    sources: dict[str, LayerSource]
+    sources: dict[str, object]        # layer -> LayerSource | StackSource | AlbedoBetweenScenes
     params: SceneParams | DayParams
     outputs: dict[str, Path]           # product -> final path
     settings_hash: str
     day_output: Path | None = None     # scene -> day product (methods.scene_to_day)
     notes: tuple[str, ...] = ()        # what the user should know about this job (check, run summary)
+    entry: str = ""                    # the config entry it comes from, e.g. days[0]
 
     @property
     def day(self) -> dt.date:
@@ -69,6 +66,7 @@ class Plan:
     jobs: list[Job] = field(default_factory=list)
     lut: np.ndarray | None = None
     classes_present: list[int] = field(default_factory=list)
+    skipped: list[tuple[str, str]] = field(default_factory=list)   # (job, why): on_missing: skip
 
     @property
     def out(self) -> Path:
@@ -84,18 +82,19 @@ class Plan:
         return int(px * 4 * (n_products * 1.0 + len(self.cfg.output.products)))
 
 
-DEFAULT_ALBEDO_NOTE = ("no albedo: FAO-56's grass reference 0.23 used everywhere (flagged albedo_default; "
-                       "wrong over snow, water and forest)")
-
-
 def unknown_classes_error(cfg: Config, classes) -> InputError:
-    return InputError(unknown_classes_message(cfg.static.get("land_cover"), cfg.emissivity.table, classes))
+    lc = cfg.static.get("land_cover")
+    return InputError(unknown_classes_message(lc.path if lc else "land cover", cfg.emissivity.table, classes))
 
 
 def build_grid(cfg: Config) -> TargetGrid:
     g = cfg.grid
     if g.like:
-        path = cfg.static[g.like]
+        spec = cfg.static[g.like]
+        if spec.is_stack:
+            raise GridError(f"{spec.path}: grid.like layer {g.like} is a time stack; define the grid by a raster "
+                            f"or by crs, resolution and bounds")
+        path = spec.path
         with gdal_env():
             ds = open_dataset(gdal_path(path), path)
             if ds.crs is None:
@@ -114,35 +113,20 @@ def make_plan(cfg: Config, *, inspect_inputs: bool = True, force: bool = False,
     early = output_problems(plan.out, plan.estimated_bytes(n_dated * len(cfg.output.products)), force=force)
     if early:
         raise early[0]
-    sources_cache: dict[tuple[str, str, str], LayerSource] = {}
-
-    def source(layer: str, path: str, kind: TimeKind) -> LayerSource | None:
-        key = (layer, path, kind)
-        if key in sources_cache:
-            return sources_cache[key]
-        try:
-            src = layer_source(cfg, layer, path, kind=kind)
-            if inspect_inputs:
-                check_overlap(src, grid)
-                check_sample(src, kind=kind)
-        except RadledgerError as exc:
-            problems.append(exc)
-            src = None
-        sources_cache[key] = src
-        return src
 
     # emissivity: the lookup holds NaN for classes the table lacks; the kernels then use
     # emissivity.unknown (flagged) or stop with the classes named.  `check` (scan_classes)
     # also scans the whole land cover first, to name every missing class at once.
     lut = None
     unknown = None
+    builder = JobBuilder(cfg, grid, None, None, inspect=inspect_inputs)
     if cfg.scenes and cfg.emissivity.constant is None:
         try:
             table = read_emissivity_table(cfg.emissivity.table)
             unknown = None if cfg.emissivity.unknown == "error" else float(cfg.emissivity.unknown)
             lut = build_lookup(table, unknown=None)
-            lc = source("land_cover", cfg.static["land_cover"], TimeKind.SCENES)
-            if lc is not None and inspect_inputs and scan_classes:
+            lc = builder.source("land_cover", cfg.static["land_cover"], TimeKind.SCENES, None)
+            if inspect_inputs and scan_classes:
                 present = land_cover_classes(lc, grid)
                 plan.classes_present = present
                 absent = missing_classes(present, table)
@@ -151,47 +135,10 @@ def make_plan(cfg: Config, *, inspect_inputs: bool = True, force: bool = False,
         except RadledgerError as exc:
             problems.append(exc)
     plan.lut = lut
-
-    products = cfg.output.products
-    out = cfg.output.directory
-    methods = cfg.methods
-    common = [__version__, grid.identity, cfg.output.compression]
-    for scene in cfg.scenes:
-        want = tuple(p for p in products if p in SCENE_PRODUCTS)
-        needs = scene_needs(scene.layers, products=want, sky_emissivity=methods.sky_emissivity,
-                            clouds=methods.clouds, scene_to_day=methods.scene_to_day,
-                            emissivity_constant=cfg.emissivity.constant is not None)
-        srcs = {k: source(k, scene.layers[k], TimeKind.SCENES) for k in needs.layers}
-        if any(v is None for v in srcs.values()):
-            continue
-        params = SceneParams(time=scene.time, products=want + ((SCENE_DAY_PRODUCT,) if
-                                                             methods.scene_to_day != "none" else ()),
-                             needs=needs, sky_emissivity=methods.sky_emissivity, clouds=methods.clouds,
-                             clear_sky_shortwave=methods.clear_sky_shortwave, emissivity_lut=lut,
-                             emissivity_constant=cfg.emissivity.constant, emissivity_unknown=unknown,
-                             land_cover_path=cfg.static.get("land_cover", ""),
-                             emissivity_table=cfg.emissivity.table or "",
-                             scene_to_day=methods.scene_to_day)
-        h = settings_hash(common, sources_fingerprint(srcs),
-                          repr(params), hashlib.sha256(lut.tobytes()).hexdigest() if lut is not None else None)
-        outputs = {p: out / "scenes" / f"{p}_{scene.stamp}.tif" for p in want}
-        day_output = None
-        if methods.scene_to_day != "none":
-            day_output = out / "days" / f"{SCENE_DAY_PRODUCT}_{scene.stamp}.tif"
-        plan.jobs.append(Job(TimeKind.SCENES, scene.stamp, scene.time, srcs, params, outputs, h,
-                             day_output=day_output))
-    for day in cfg.days:
-        want = tuple(p for p in products if p in DAY_PRODUCTS)
-        needs = day_needs(day.layers, products=want)
-        srcs = {k: source(k, day.layers[k], TimeKind.DAYS) for k in needs.layers}
-        if any(v is None for v in srcs.values()):
-            continue
-        params = DayParams(date=day.date, products=want, needs=needs,
-                           shortwave_daylight_mean=srcs["shortwave_down"].units == "W m-2 daylight")
-        h = settings_hash(common, sources_fingerprint(srcs), repr(params))
-        outputs = {p: out / "days" / f"{p}_{day.stamp}.tif" for p in want}
-        notes = () if "albedo" in srcs else (DEFAULT_ALBEDO_NOTE,)
-        plan.jobs.append(Job(TimeKind.DAYS, day.stamp, day.date, srcs, params, outputs, h, notes=notes))
+    builder.lut, builder.unknown = lut, unknown
+    plan.jobs = builder.scene_jobs(Job) + builder.day_jobs(Job)
+    problems.extend(builder.problems)
+    plan.skipped = builder.skipped
 
     if cfg.zones is not None and inspect_inputs:
         try:

@@ -30,10 +30,22 @@ def file_fingerprint(path: str) -> list:
         return [path]
 
 
+def source_fingerprint(src) -> list:
+    """What a product depends on in one source: its file(s), the steps read, the decoding."""
+    scenes = getattr(src, "scenes", None)
+    if scenes is not None:    # a day's albedo between scenes: each scene's albedo, and the day
+        return ["albedo between scenes", str(src.day), src.max_gap] + [[str(t), source_fingerprint(s)]
+                                                                       for t, s in scenes]
+    parts = file_fingerprint(src.path) + [src.scale, src.offset, src.nodata, src.factor, src.shift,
+                                          src.resampling]
+    if getattr(src, "variable", None) is not None:   # a time stack: which steps, how weighted
+        parts += [src.variable, list(src.steps), list(src.weights)]
+    return parts
+
+
 def sources_fingerprint(srcs: dict[str, LayerSource]) -> list:
-    """What a product depends on in its inputs: each file (size, mtime) and its decoding."""
-    return [file_fingerprint(s.path) + [s.scale, s.offset, s.nodata, s.factor, s.shift, s.resampling]
-            for s in srcs.values()]
+    """What a product depends on in its inputs: each source's files, steps and decoding."""
+    return [source_fingerprint(s) for s in srcs.values()]
 
 
 def settings_hash(*parts) -> str:

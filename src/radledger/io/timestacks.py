@@ -1,0 +1,267 @@
+"""Time stacks: one NetCDF or Zarr variable (time, y, x) holding many dates, read one window at a time.
+
+Opened with xarray (CF decoding: ``scale_factor``, ``add_offset``, ``_FillValue`` /
+``missing_value``, times) and rioxarray (the CRS from ``grid_mapping``; lon/lat coordinates mean
+WGS 84).  A :class:`StackSource` is a small picklable description of the step or steps one date
+needs; :meth:`StackSource.read` opens the file inside the task, cuts the slab of the source grid
+that covers the window (plus a margin for the resampling kernel), reads only those steps of it and
+warps the slab onto the window with GDAL.  A 365-step stack is never loaded whole.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+import threading
+from dataclasses import dataclass
+from functools import lru_cache
+
+import numpy as np
+from affine import Affine
+from rasterio.crs import CRS
+from rasterio.enums import Resampling
+from rasterio.warp import reproject, transform_bounds
+from rasterio.windows import Window
+
+from ..errors import InputError
+from ..grid import TargetGrid
+
+__all__ = ["StackInfo", "StackSource", "stack_info", "is_stack_path"]
+
+_MARGIN = 3   # source pixels around the window: enough for cubic / lanczos kernels
+
+
+def is_stack_path(path: str) -> bool:
+    return path.lower().rstrip("/").endswith((".nc", ".nc4", ".cdf", ".h5", ".hdf5", ".zarr"))
+
+
+def _engine(path: str) -> str | None:
+    return "zarr" if path.lower().rstrip("/").endswith(".zarr") else None
+
+
+def _open(path: str, *, mask_and_scale: bool, decode_times: bool):
+    import xarray as xr
+
+    try:
+        return xr.open_dataset(path, engine=_engine(path), mask_and_scale=mask_and_scale,
+                               decode_times=decode_times, cache=False)
+    except FileNotFoundError:
+        raise InputError(f"{path}: file not found; check the path in the config") from None
+    except Exception as exc:   # xarray raises many kinds for a file it cannot read
+        raise InputError(f"{path}: cannot open as a NetCDF/Zarr time stack ({exc.__class__.__name__}: "
+                         f"{' '.join(str(exc).split())[:160]})") from None
+
+
+@dataclass(frozen=True)
+class StackInfo:
+    """What a stack's header says: its times, units, CRS, grid and CF packing."""
+    path: str
+    variable: str
+    times: tuple[dt.datetime, ...]       # UTC
+    units: str
+    crs: CRS
+    transform: Affine                    # of the (y, x) grid as stored (may be south-up)
+    shape: tuple[int, int]               # (height, width)
+    packed: bool                         # CF scale_factor / add_offset present
+
+    @property
+    def bounds(self) -> tuple[float, float, float, float]:
+        t, (h, w) = self.transform, self.shape
+        xs, ys = (t.c, t.c + t.a * w), (t.f, t.f + t.e * h)
+        return min(xs), min(ys), max(xs), max(ys)
+
+
+def _utc(value) -> dt.datetime:
+    if isinstance(value, np.datetime64):
+        value = value.astype("datetime64[us]").astype(dt.datetime)
+    elif not isinstance(value, dt.datetime):      # cftime
+        value = dt.datetime(value.year, value.month, value.day, value.hour, value.minute, value.second)
+    return value.replace(tzinfo=dt.timezone.utc) if value.tzinfo is None else value.astimezone(dt.timezone.utc)
+
+
+def _is_lonlat(da) -> bool:
+    names = {str(da.rio.x_dim).lower(), str(da.rio.y_dim).lower()}
+    if names & {"lon", "longitude"} and names & {"lat", "latitude"}:
+        return True
+    for dim in (da.rio.x_dim, da.rio.y_dim):
+        attrs = da[dim].attrs
+        if attrs.get("standard_name") in ("longitude", "latitude") or \
+                str(attrs.get("units", "")).startswith(("degrees_east", "degrees_north", "degree_E", "degree_N")):
+            return True
+    return False
+
+
+@lru_cache(maxsize=256)
+def stack_info(path: str, variable: str) -> StackInfo:
+    """The header of ``variable`` in the stack at ``path`` (cached per process)."""
+    import rioxarray  # noqa: F401  (registers the .rio accessor)
+
+    ds = _open(path, mask_and_scale=False, decode_times=True)
+    with ds:
+        if variable not in ds.data_vars:
+            names = ", ".join(str(n) for n in ds.data_vars) or "none"
+            raise InputError(f"{path}: has no variable {variable!r}; its variables: {names}")
+        da = ds[variable]
+        time_dims = [d for d in da.dims if d == "time" or np.issubdtype(ds[d].dtype, np.datetime64)
+                     or d in ds.coords and "since" in str(ds[d].attrs.get("units", ""))]
+        if "time" not in ds.coords and not time_dims:
+            raise InputError(f"{path}: variable {variable} has no time axis (dims {', '.join(da.dims)}); a time "
+                             f"stack needs a CF time coordinate")
+        tdim = "time" if "time" in da.dims else time_dims[0]
+        try:
+            da = da.rio.set_spatial_dims(*_xy_dims(da, tdim))
+            transform = da.rio.transform(recalc=True)
+        except Exception as exc:
+            raise InputError(f"{path}: variable {variable}: cannot find its x/y grid ({exc}); it needs 1-D x/y "
+                             f"or lon/lat coordinates") from None
+        crs = da.rio.crs
+        if crs is None:
+            if not _is_lonlat(da):
+                raise InputError(f"{path}: variable {variable} has no grid_mapping and no lon/lat coordinates; "
+                                 f"add a CF grid_mapping so its CRS is known")
+            crs = CRS.from_epsg(4326)
+        extra = [d for d in da.dims if d not in (tdim, da.rio.y_dim, da.rio.x_dim)]
+        if extra:
+            raise InputError(f"{path}: variable {variable} has extra dimensions {', '.join(extra)}; give a "
+                             f"(time, y, x) variable")
+        times = tuple(_utc(t) for t in ds[tdim].values)
+        enc = {**da.attrs, **da.encoding}
+        return StackInfo(path=path, variable=variable, times=times, units=str(da.attrs.get("units", "")),
+                         crs=CRS.from_user_input(crs), transform=transform,
+                         shape=(int(da.sizes[da.rio.y_dim]), int(da.sizes[da.rio.x_dim])),
+                         packed="scale_factor" in enc or "add_offset" in enc)
+
+
+def _xy_dims(da, tdim: str) -> tuple[str, str]:
+    rest = [d for d in da.dims if d != tdim]
+    if len(rest) < 2:
+        raise ValueError(f"dims {da.dims}")
+    return rest[-1], rest[-2]   # CF order (..., y, x)
+
+
+_local = threading.local()
+
+
+def _cached(path: str, raw: bool):
+    cache = getattr(_local, "stacks", None)
+    if cache is None:
+        cache = _local.stacks = {}
+    key = (path, raw)
+    if key not in cache:
+        if len(cache) >= 32:
+            for k in list(cache)[:16]:
+                cache.pop(k).close()
+        cache[key] = _open(path, mask_and_scale=not raw, decode_times=False)
+    return cache[key]
+
+
+@dataclass(frozen=True)
+class StackSource:
+    """One layer of one date from a time stack: the weighted sum of some of its steps.
+
+    ``internal = (value * factor + shift)`` where ``value`` is the CF-decoded value (or, with
+    ``scale``/``offset``/``nodata`` given, ``stored * scale + offset`` with ``stored == nodata``
+    missing).  Days take one step (weight 1); scenes interpolate linearly between the two steps
+    around the scene time.
+    """
+    layer: str
+    path: str
+    variable: str
+    steps: tuple[int, ...]
+    weights: tuple[float, ...]
+    info: StackInfo
+    scale: float | None = None
+    offset: float | None = None
+    nodata: float | None = None
+    factor: float = 1.0
+    shift: float = 0.0
+    resampling: str = "bilinear"
+    units: str = ""
+
+    @property
+    def raw(self) -> bool:
+        return self.scale is not None or self.offset is not None or self.nodata is not None
+
+    def read_layers(self, grid: TargetGrid, window: Window) -> dict[str, np.ndarray]:
+        return {self.layer: self.read(grid, window)}
+
+    def read(self, grid: TargetGrid, window: Window) -> np.ndarray:
+        """The decoded float32 values of ``window`` of ``grid``; NaN = missing or off the stack."""
+        h, w = int(window.height), int(window.width)
+        out = np.full((h, w), np.nan, dtype=np.float32)
+        cut = self._slab_window(grid, window)
+        if cut is None:
+            return out
+        (r0, r1), (c0, c1) = cut
+        slab = self._slab(r0, r1, c0, c1)
+        t = self.info.transform
+        src_transform = Affine(t.a, t.b, t.c + t.a * c0, t.d, t.e, t.f + t.e * r0)
+        if src_transform.e > 0:       # south-up storage: flip to north-up for the warp
+            slab = slab[::-1]
+            src_transform = Affine(t.a, t.b, src_transform.c, t.d, -t.e, t.f + t.e * r1)
+        reproject(source=slab, destination=out, src_transform=src_transform, src_crs=self.info.crs,
+                  src_nodata=np.nan, dst_transform=grid.window_transform(window), dst_crs=grid.crs,
+                  dst_nodata=np.nan, resampling=Resampling[self.resampling], init_dest_nodata=True,
+                  num_threads=1)
+        if self.factor != 1:
+            out *= np.float32(self.factor)
+        if self.shift != 0:
+            out += np.float32(self.shift)
+        return out
+
+    def read_sample(self, max_pixels: int = 256) -> np.ndarray:
+        """A small decoded sample of the first step (a strided read), cheap whatever the stack's size."""
+        h, w = self.info.shape
+        step = max(1, math.ceil(max(h, w) / max_pixels))
+        ds = _cached(self.path, self.raw)
+        da = ds[self.variable]
+        a = np.asarray(da.isel({da.dims[0]: self.steps[0], da.dims[-2]: slice(None, None, step),
+                                da.dims[-1]: slice(None, None, step)}).values, dtype=np.float64)
+        if self.raw:
+            if self.nodata is not None:
+                a[a == self.nodata] = np.nan
+            a = a * (1.0 if self.scale is None else self.scale) + (self.offset or 0.0)
+        return (a * self.factor + self.shift).astype(np.float32)
+
+    def overlaps(self, grid: TargetGrid) -> bool:
+        """Whether the stack covers any part of ``grid``."""
+        return self._slab_window(grid, Window(0, 0, grid.width, grid.height)) is not None
+
+    def _slab_window(self, grid: TargetGrid, window: Window):
+        info = self.info
+        try:
+            xmin, ymin, xmax, ymax = transform_bounds(grid.crs, info.crs, *grid.window_bounds(window),
+                                                      densify_pts=11)
+        except Exception:
+            return None
+        if info.crs.is_geographic and info.bounds[0] >= 0 and xmax < 0:   # a 0..360 longitude stack
+            xmin, xmax = xmin + 360, xmax + 360
+        inv = ~info.transform
+        cols, rows = zip(*(inv * (x, y) for x in (xmin, xmax) for y in (ymin, ymax)))
+        h, w = info.shape
+        r0, r1 = max(0, math.floor(min(rows)) - _MARGIN), min(h, math.ceil(max(rows)) + _MARGIN)
+        c0, c1 = max(0, math.floor(min(cols)) - _MARGIN), min(w, math.ceil(max(cols)) + _MARGIN)
+        if r1 <= r0 or c1 <= c0:
+            return None
+        return (r0, r1), (c0, c1)
+
+    def _slab(self, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
+        ds = _cached(self.path, self.raw)
+        da = ds[self.variable]
+        tdim = da.dims[0]
+        ydim, xdim = da.dims[-2], da.dims[-1]
+        total = None
+        for step, weight in zip(self.steps, self.weights):
+            try:
+                a = np.asarray(da.isel({tdim: step, ydim: slice(r0, r1), xdim: slice(c0, c1)}).values,
+                               dtype=np.float64)
+            except Exception as exc:
+                raise InputError(f"{self.path}: reading {self.variable} step {step} failed "
+                                 f"({exc.__class__.__name__}: {' '.join(str(exc).split())[:160]}); the file may "
+                                 f"be truncated or corrupt") from None
+            if self.raw:
+                if self.nodata is not None:
+                    a[a == self.nodata] = np.nan
+                a = a * (1.0 if self.scale is None else self.scale) + (self.offset or 0.0)
+            total = a * weight if total is None else total + a * weight
+        return total.astype(np.float32)

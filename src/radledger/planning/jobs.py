@@ -1,0 +1,150 @@
+"""The jobs of a plan: one per scene time and per day, each with the sources it reads.
+
+Every input of every date is resolved here (a template's file, a stack's steps, the scenes around a
+day for interpolated albedo); a date lacking an input is an error naming it, or - with
+``on_missing: skip`` - left out and listed.  Each distinct input (a file, a template, a stack
+variable) is checked once: it overlaps the grid, and (on a few of its dates) its values fit the
+declared units.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import hashlib
+from dataclasses import dataclass, field
+
+from .._version import __version__
+from ..config import Config, InputSpec
+from ..errors import GridError, RadledgerError
+from ..io.rasters import check_overlap
+from ..kinds import TimeKind
+from ..model.albedo import AlbedoBetweenScenes
+from ..model.needs import day_needs, scene_needs
+from ..model.params import DayParams, SceneParams
+from ..model.products import DAY_PRODUCTS, SCENE_DAY_PRODUCT, SCENE_PRODUCTS
+from .checks import check_sample
+from .provenance import settings_hash, sources_fingerprint
+from .sources import MissingInput, input_source
+
+__all__ = ["JobBuilder", "DEFAULT_ALBEDO_NOTE", "SAMPLE_CHECKS_PER_INPUT"]
+
+DEFAULT_ALBEDO_NOTE = ("no albedo: FAO-56's grass reference 0.23 used everywhere (flagged albedo_default; "
+                       "wrong over snow, water and forest)")
+#: dates of one template or stack whose values are sampled for the unit check (first, then spread)
+SAMPLE_CHECKS_PER_INPUT = 3
+
+
+@dataclass
+class JobBuilder:
+    """Builds the jobs of a plan, collecting problems and skipped dates."""
+    cfg: Config
+    grid: object
+    lut: object
+    unknown: float | None
+    inspect: bool = True
+    problems: list[RadledgerError] = field(default_factory=list)
+    skipped: list[tuple[str, str]] = field(default_factory=list)     # (job label, why)
+    _checked: dict = field(default_factory=dict)
+    _scene_albedo: list = field(default_factory=list)                 # (time, source) of every scene
+
+    # ---- sources ----------------------------------------------------------------------
+    def _identity(self, layer: str, spec: InputSpec) -> tuple:
+        return (layer, spec.template or spec.path, spec.variable)
+
+    def _inspect(self, layer: str, spec: InputSpec, src, kind: TimeKind) -> None:
+        if not self.inspect:
+            return
+        key = self._identity(layer, spec)
+        n = self._checked.get(key, 0)
+        if n == 0:
+            if hasattr(src, "overlaps"):
+                if not src.overlaps(self.grid):
+                    raise GridError(f"{src.path}: {src.variable} does not overlap the target grid "
+                                    f"({self.grid.describe()}); check its coordinates and CRS")
+            else:
+                check_overlap(src, self.grid)
+        series = spec.template is not None or spec.variable is not None   # a different file or step per date
+        if n < (SAMPLE_CHECKS_PER_INPUT if series else 1):
+            check_sample(src, kind=kind)
+        self._checked[key] = n + 1
+
+    def source(self, layer: str, spec: InputSpec, kind: TimeKind, when):
+        src = input_source(self.cfg, layer, spec, kind, when)
+        self._inspect(layer, spec, src, kind)
+        return src
+
+    def _sources(self, entry, layers, kind: TimeKind, when, label: str) -> dict | None:
+        """Every source of one date, or None when it is skipped or has a problem (recorded)."""
+        out = {}
+        static = set(self.cfg.static.values())
+        for layer in layers:
+            spec = entry.layers[layer]
+            try:
+                if spec.interpolate:
+                    out[layer] = self._interpolated_albedo(when, spec)
+                else:
+                    out[layer] = self.source(layer, spec, kind, when)
+            except MissingInput as exc:
+                if entry.on_missing == "skip" and spec not in static:
+                    self.skipped.append((label, str(exc)))
+                else:
+                    self.problems.append(exc)
+                return None
+            except RadledgerError as exc:
+                self.problems.append(exc)
+                return None
+        return out
+
+    def _interpolated_albedo(self, day: dt.date, spec: InputSpec) -> AlbedoBetweenScenes:
+        noon = dt.datetime.combine(day, dt.time(12), tzinfo=dt.timezone.utc)
+        near = tuple((t, s) for t, s in self._scene_albedo if abs((t - noon).total_seconds()) <= spec.max_gap * 86400)
+        return AlbedoBetweenScenes(day=day, scenes=near, max_gap=spec.max_gap)
+
+    # ---- jobs -------------------------------------------------------------------------
+    def scene_jobs(self, job_class) -> list:
+        cfg, methods, out = self.cfg, self.cfg.methods, self.cfg.output.directory
+        common = [__version__, self.grid.identity, cfg.output.compression]
+        want = tuple(p for p in cfg.output.products if p in SCENE_PRODUCTS)
+        lut_hash = hashlib.sha256(self.lut.tobytes()).hexdigest() if self.lut is not None else None
+        jobs = []
+        for scene in cfg.scenes:
+            needs = scene_needs(scene.layers, products=want, sky_emissivity=methods.sky_emissivity,
+                                clouds=methods.clouds, scene_to_day=methods.scene_to_day,
+                                emissivity_constant=cfg.emissivity.constant is not None)
+            srcs = self._sources(scene, needs.layers, TimeKind.SCENES, scene.time, f"scene {scene.stamp}")
+            if srcs is None:
+                continue
+            self._scene_albedo.append((scene.time, srcs["albedo"]))
+            params = SceneParams(time=scene.time, products=want + ((SCENE_DAY_PRODUCT,) if
+                                                                 methods.scene_to_day != "none" else ()),
+                                 needs=needs, sky_emissivity=methods.sky_emissivity, clouds=methods.clouds,
+                                 clear_sky_shortwave=methods.clear_sky_shortwave, emissivity_lut=self.lut,
+                                 emissivity_constant=cfg.emissivity.constant, emissivity_unknown=self.unknown,
+                                 land_cover_path=cfg.static["land_cover"].path if "land_cover" in cfg.static else "",
+                                 emissivity_table=cfg.emissivity.table or "", scene_to_day=methods.scene_to_day)
+            h = settings_hash(common, sources_fingerprint(srcs), repr(params), lut_hash)
+            outputs = {p: out / "scenes" / f"{p}_{scene.stamp}.tif" for p in want}
+            day_output = out / "days" / f"{SCENE_DAY_PRODUCT}_{scene.stamp}.tif" \
+                if methods.scene_to_day != "none" else None
+            jobs.append(job_class(TimeKind.SCENES, scene.stamp, scene.time, srcs, params, outputs, h,
+                                  day_output=day_output, entry=scene.key))
+        return jobs
+
+    def day_jobs(self, job_class) -> list:
+        cfg, out = self.cfg, self.cfg.output.directory
+        common = [__version__, self.grid.identity, cfg.output.compression]
+        want = tuple(p for p in cfg.output.products if p in DAY_PRODUCTS)
+        jobs = []
+        for day in cfg.days:
+            needs = day_needs(day.layers, products=want)
+            srcs = self._sources(day, needs.layers, TimeKind.DAYS, day.date, f"day {day.stamp}")
+            if srcs is None:
+                continue
+            params = DayParams(date=day.date, products=want, needs=needs,
+                               shortwave_daylight_mean=srcs["shortwave_down"].units == "W m-2 daylight")
+            h = settings_hash(common, sources_fingerprint(srcs), repr(params))
+            outputs = {p: out / "days" / f"{p}_{day.stamp}.tif" for p in want}
+            notes = () if "albedo" in srcs else (DEFAULT_ALBEDO_NOTE,)
+            jobs.append(job_class(TimeKind.DAYS, day.stamp, day.date, srcs, params, outputs, h, notes=notes,
+                                  entry=day.key))
+        return jobs
