@@ -407,8 +407,9 @@ def test_minimal_config_loads_with_documented_defaults(tmp_path):
     assert c.grid.like == "land_cover" and c.grid.crs is None
     assert c.grid.resampling == "bilinear" and c.grid.chunk == 1024
     assert c.emissivity.unknown == "error" and c.emissivity.constant is None
+    # beam-diffuse: the App. D clear sky is the scene default (eq. 37 assumes a mean daily sun angle)
     assert (c.methods.sky_emissivity, c.methods.clouds, c.methods.clear_sky_shortwave,
-            c.methods.scene_to_day) == ("brutsaert", "none", "fao56", "none")
+            c.methods.scene_to_day) == ("brutsaert", "none", "beam-diffuse", "none")
     assert c.output.directory == tmp_path.resolve() / "out"
     assert c.output.products == ("net_radiation", "net_shortwave", "net_longwave", "quality")
     assert c.output.compression == "zstd"

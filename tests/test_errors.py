@@ -4,8 +4,11 @@ from __future__ import annotations
 
 import subprocess
 import sys
+from pathlib import Path
 
 import numpy as np
+import rasterio
+import yaml
 import pytest
 
 from radledger.cli import main
@@ -203,3 +206,37 @@ def test_read_only_output_folder_is_refused_even_for_root(scn, capsys):
         assert list(ro.iterdir()) == []
     finally:
         ro.chmod(0o755)
+
+
+@pytest.mark.parametrize("directory", ["s3://bucket/run", "https://example.org/out", "/vsis3/bucket/run"])
+def test_output_directory_on_an_object_store_is_refused(scn, capsys, directory):
+    scn.write_config(**{"output.directory": directory})
+    code, _, err = _run_cli(capsys, "run", str(scn.config))
+    assert code == 2 and "output.directory" in err and "not a local folder" in err
+    assert not (scn.folder / "s3:").exists() and not (Path.cwd() / "s3:").exists()
+
+
+def _one_day(scn, shortwave_file):
+    cfg = yaml.safe_load(scn.config.read_text())
+    cfg["days"] = [{"date": "2026-07-14", "shortwave_down": shortwave_file, "air_temperature_max": "ta.tif",
+                    "air_temperature_min": "ta.tif", "vapour_pressure": "ea.tif"}]
+    cfg["scenes"] = []
+    scn.config.write_text(yaml.safe_dump(cfg))
+
+
+def test_daily_shortwave_in_w_m2_declared_mj_names_both_right_conversions(scn, capsys):
+    write_tif(scn.folder / "rs_w.tif", np.full(scn.shape, 420, np.float32), transform=scn.transform)
+    _one_day(scn, "rs_w.tif")
+    code, _, err = _run_cli(capsys, "run", str(scn.config))
+    _assert_clean_failure(scn, code, err, "rs_w.tif", "W m-2 daylight", "24-hour mean")
+    assert "0.0864" not in err          # a bare scale would be wrong for daylight means
+
+
+def test_a_run_losing_many_pixels_to_range_checks_says_so(scn, capsys):
+    with rasterio.open(scn.folder / "lst.tif", "r+") as ds:        # a block of 500 K surface temperature
+        a = ds.read(1)
+        a[40:140, 40:140] = int(500 / 0.02) if 500 / 0.02 < 65535 else 65000
+        ds.write(a, 1)
+    code, out, err = _run_cli(capsys, "run", "--quiet", str(scn.config))
+    assert code == 0
+    assert "warning:" in err and "outside its physical range" in err and "%" in err

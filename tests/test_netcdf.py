@@ -20,7 +20,7 @@ from helpers_rasters import utm_grid, write_raster
 from radledger.errors import InputError, OutputError
 from radledger.grid import TargetGrid
 from radledger.outputs.netcdf import write_stack
-from radledger.model.products import QUALITY_BITS, product_info
+from radledger.model.products import SCENE_QUALITY_BITS as QUALITY_BITS, product_info
 
 # canonical units from the CF standard-name table XML (source in the module docstring)
 CF_CANONICAL_UNITS = {

@@ -9,16 +9,18 @@ whole-array warp (rasterio.warp.reproject) rather than the per-chunk path.
 from __future__ import annotations
 
 import numpy as np
+import pytest
 import rasterio
 from rasterio.enums import Resampling
 from rasterio.warp import reproject
 
 import radledger
 from radledger import physics as ph
-from radledger.model.products import QUALITY_BITS, QUALITY_NODATA
+from radledger.model.products import QUALITY_NODATA, SCENE_QUALITY_BITS as QUALITY_BITS
 from radledger.runner import run_config
 from radledger.config import load_config
 
+from reference_clear_sky import G_SC, appendix_d, spa_sun
 from scenario import CLASSES, CRS_UTM, DELETE, make_scenario, read
 
 STAMP = "20260714T1810"
@@ -104,17 +106,41 @@ def test_quality_flags_missing_and_out_of_range(tmp_path):
         assert "out_of_range" in ds.tags()["flag_meanings"]
 
 
+def _sample(shape, n=40, seed=3):
+    rng = np.random.default_rng(seed)
+    return rng.integers(0, shape[0], n), rng.integers(0, shape[1], n)
+
+
 def test_modelled_clear_sky_shortwave_when_absent(tmp_path):
+    # the scene default: App. D beam + diffuse on the SPA sun, checked against reference_clear_sky (pvlib SPA
+    # and the ASCE-EWRI 2005 App. D equations written out independently)
     scn = make_scenario(tmp_path, holes=False, with_shortwave=False)
     _run(scn)
     out = tmp_path / "out" / "scenes"
     rns = read(out / f"net_shortwave_{STAMP}.tif")
     q = read(out / f"quality_{STAMP}.tif")
     assert (q & QUALITY_BITS["modelled_shortwave"]).all()
-    grid_lon, grid_lat = _lonlat(scn)
-    ra = ph.extraterrestrial_instant(grid_lat, grid_lon, 195, 18 + 10 / 60)   # 14 July = day 195
-    rso = ph.clear_sky_shortwave_fao56(ra, scn.truth["elevation"])           # FAO-56 eq. 37
-    np.testing.assert_allclose(rns, (1 - scn.truth["albedo"]) * rso, atol=0.05)
+    rows, cols = _sample(scn.shape)
+    lon, lat = _lonlat(scn)
+    cosz, r = spa_sun(lat[rows, cols], lon[rows, cols], "2026-07-14T18:10:00Z")
+    t = scn.truth
+    rso = appendix_d(cosz, r, t["elevation"][rows, cols], t["vapour_pressure"][rows, cols])
+    got = rns[rows, cols] / (1 - t["albedo"][rows, cols])
+    np.testing.assert_allclose(got, rso, rtol=0.005)
+
+
+def test_modelled_clear_sky_shortwave_by_eq37_on_request(tmp_path):
+    # methods.clear_sky_shortwave: fao56 keeps FAO-56 eq. 37, (0.75 + 2e-5 z) Ra, with Ra from the SPA sun
+    scn = make_scenario(tmp_path, holes=False, with_shortwave=False)
+    scn.write_config(**{"methods.clear_sky_shortwave": "fao56"})
+    _run(scn)
+    rns = read(tmp_path / "out" / "scenes" / f"net_shortwave_{STAMP}.tif")
+    rows, cols = _sample(scn.shape)
+    lon, lat = _lonlat(scn)
+    cosz, r = spa_sun(lat[rows, cols], lon[rows, cols], "2026-07-14T18:10:00Z")
+    z = scn.truth["elevation"][rows, cols]
+    rso = (0.75 + 2e-5 * z) * G_SC / r ** 2 * cosz
+    np.testing.assert_allclose(rns[rows, cols] / (1 - scn.truth["albedo"][rows, cols]), rso, rtol=0.005)
 
 
 def _lonlat(scn):
@@ -139,14 +165,17 @@ def test_crawford_duchon_raises_sky_emissivity_under_cloud(tmp_path):
     out = tmp_path / "out" / "scenes"
     eps = read(out / f"sky_emissivity_{STAMP}.tif")
     q = read(out / f"quality_{STAMP}.tif")
+    rows, cols = _sample(scn.shape)
     lon, lat = _lonlat(scn)
-    rso = ph.clear_sky_shortwave_fao56(ph.extraterrestrial_instant(lat, lon, 195, 18 + 10 / 60),
-                                       scn.truth["elevation"])
+    t = scn.truth
+    cosz, r = spa_sun(lat[rows, cols], lon[rows, cols], "2026-07-14T18:10:00Z")
+    rso = appendix_d(cosz, r, t["elevation"][rows, cols], t["vapour_pressure"][rows, cols])
     with rasterio.open(tmp_path / "rs.tif") as ds:
-        rs = ds.read(1).astype(float)
-    clear = ph.brutsaert_1975(scn.truth["air_temperature"], scn.truth["vapour_pressure"])
-    exp = ph.crawford_duchon_1999(clear, rs, rso)
-    np.testing.assert_allclose(eps, exp, atol=1e-5)
+        rs = ds.read(1).astype(float)[rows, cols]
+    # Brutsaert (1975) with e in hPa, and Crawford & Duchon (1999): eps = c + (1 - c) eps_clear, c = 1 - Rs/Rso
+    clear = 1.24 * (10 * t["vapour_pressure"][rows, cols] / t["air_temperature"][rows, cols]) ** (1 / 7)
+    c = np.clip(1 - rs / rso, 0, 1)
+    np.testing.assert_allclose(eps[rows, cols], c + (1 - c) * clear, atol=2e-4)
     assert (q[:, :100] & QUALITY_BITS["cloud_corrected"]).all()
 
 
@@ -231,3 +260,30 @@ def test_daytime_scene_has_no_sun_down_flags(tmp_path):
     _run(scn)
     q = read(tmp_path / "out" / "scenes" / f"quality_{STAMP}.tif")
     assert not (q & QUALITY_BITS["sun_down"]).any()
+
+
+def _albers(lat_1):
+    return (f"+proj=aea +lat_0=23 +lon_0=-116 +lat_1={lat_1} +lat_2=45.5 +x_0=0 +y_0=0 +datum=WGS84 "
+            f"+units=m +no_defs")
+
+
+@pytest.mark.parametrize("change", ["half-pixel shift", "albers standard parallel"])
+def test_a_changed_grid_is_never_taken_for_the_old_one(tmp_path, change):
+    scn = make_scenario(tmp_path, shape=(60, 80), chunk=64)
+    # a 10 m grid in a custom Albers CRS over the scenario (inputs warped per chunk)
+    grid = {"crs": _albers(29.5), "resolution": 10.0, "bounds": [-30000.0, 1490000.0, -29200.0, 1490600.0],
+            "chunk": 64}
+    from pyproj import Transformer
+    x, y = Transformer.from_crs(CRS_UTM, _albers(29.5), always_xy=True).transform(300000 + 1200, 4280000 - 900)
+    grid["bounds"] = [round(x) - 300.0, round(y) - 200.0, round(x) + 300.0, round(y) + 200.0]
+    scn.write_config(**{"grid": grid})
+    first = _run(scn)
+    assert first.written
+    if change == "half-pixel shift":
+        b = grid["bounds"]
+        grid = {**grid, "bounds": [b[0] + 5.0, b[1], b[2] + 5.0, b[3]]}
+    else:
+        grid = {**grid, "crs": _albers(29.6)}
+    scn.write_config(**{"grid": grid})
+    second = _run(scn)
+    assert second.written and not second.skipped      # every product recomputed on the new grid

@@ -15,7 +15,7 @@ from pyproj import Transformer
 from helpers_rasters import utm_grid, write_raster
 from radledger.errors import InputError, OutputError
 from radledger.grid import TargetGrid
-from radledger.model.products import QUALITY_BITS
+from radledger.model.products import SCENE_QUALITY_BITS as QUALITY_BITS
 from radledger.outputs.quicklooks import DPI, FIGSIZE, NAN_COLOUR, NO_FLAGS_COLOUR, write_quicklook
 from radledger.io.vectors import read_zones
 

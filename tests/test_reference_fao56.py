@@ -17,7 +17,6 @@ import math
 import pytest
 
 from radledger import physics as p
-from radledger.physics import STEFAN_BOLTZMANN_DAILY
 
 FAO_K = 273.16  # FAO-56 eq. 39 / Box 10: T_K = T[degC] + 273.16
 K = 273.15  # radledger's decoding of degC
@@ -82,18 +81,28 @@ def test_example_20_vapour_pressure_from_dewpoint():
     "t_c, expected",
     [
         (1.0, 27.70),  # FAO-56 Annex 2 Table 2.8
+        (10.0, 31.52),  # FAO-56 Annex 2 Table 2.8
+        (17.5, 34.99),  # FAO-56 Annex 2 Table 2.8
         (20.0, 36.21),  # FAO-56 Annex 2 Table 2.8
+        (25.0, 38.75),  # FAO-56 Annex 2 Table 2.8
         (30.0, 41.41),  # FAO-56 Annex 2 Table 2.8
+        (35.0, 44.21),  # FAO-56 Annex 2 Table 2.8
         (40.0, 47.15),  # FAO-56 Annex 2 Table 2.8
+        (48.5, 52.49),  # FAO-56 Annex 2 Table 2.8
     ],
 )
 def test_table_2_8_sigma_t4(t_c, expected):
     t_k = t_c + FAO_K  # Table 2.8 heading: T_K = T[degC] + 273.16
-    assert STEFAN_BOLTZMANN_DAILY * t_k**4 == pytest.approx(expected, abs=0.006)
-    # The CODATA sigma in W m-2 held for a day (x 0.0864) is 0.08 % below
-    # FAO-56's rounded 4.903e-9; it still matches the table to 0.05.
-    daily = p.surface_emission(t_k) * p.W_TO_MJ_DAY
-    assert daily == pytest.approx(expected, abs=0.05)
+    # Eq. 39 with e_a = 0 (humidity factor 0.34) and R_s = R_so (cloud factor
+    # 1.35 - 0.35 = 1) is 0.34 sigma T^4 when Tmax = Tmin = T.
+    daily = p.fao56_net_longwave_daily(t_k, t_k, 0.0, 20.0, 20.0) / 0.34
+    assert daily == pytest.approx(expected, abs=0.006)
+    # The hourly form (FAO-56 p. 74, sigma / 24) gives a 24th of it.
+    hourly = p.fao56_net_longwave_hourly(t_k, 0.0, 1.0, 1.0) / 0.34
+    assert 24.0 * hourly == pytest.approx(expected, abs=0.006)
+    # The CODATA sigma in W m-2 held for a day (x 0.0864, FAO-56 Table 3)
+    # is 0.08 % below FAO-56's rounded 4.903e-9; it still matches to 0.05.
+    assert p.surface_emission(t_k) * p.W_TO_MJ_DAY == pytest.approx(expected, abs=0.05)
 
 
 # --- Examples 8 and 9: daily Ra and daylight hours --------------------------------------
@@ -121,19 +130,12 @@ RIO = deg(-22, 54)  # FAO-56 Example 10: 22 deg 54' S
 RIO_J = 135  # FAO-56 Example 10: 15 May
 
 
-def _angstrom(n, latitude, j):
-    """FAO-56 eq. 35 with a_s = 0.25, b_s = 0.50 (test-side helper)."""
-    ra = p.extraterrestrial_daily(latitude, j)
-    big_n = p.daylight_hours(p.sunset_hour_angle(latitude, p.solar_declination(j)))
-    return (0.25 + 0.50 * n / big_n) * ra
-
-
 def test_example_10():
     ws = p.sunset_hour_angle(RIO, p.solar_declination(RIO_J))
     assert p.extraterrestrial_daily(RIO, RIO_J) == pytest.approx(25.1, abs=0.05)  # Ex. 10 Ra
     assert p.daylight_hours(ws) == pytest.approx(10.9, abs=0.05)  # FAO-56 Example 10, N
-    rs = _angstrom(220.0 / 31.0, RIO, RIO_J)  # 220 h of sunshine in May
-    assert rs == pytest.approx(14.5, abs=0.06)  # FAO-56 Example 10, Rs
+    # Rs = [0.25 + 0.50 (7.1 / 10.9)] Ra = 0.58 (25.1) = 14.5 (eq. 35) has no
+    # radledger function; Examples 11 and 12 take the printed 14.5 as input.
 
 
 def test_example_11_net_longwave():
@@ -162,8 +164,7 @@ def test_example_17():
     assert p.extraterrestrial_daily(BANGKOK, 105) == pytest.approx(38.06, abs=0.01)  # Ex. 17
     ws = p.sunset_hour_angle(BANGKOK, p.solar_declination(105))
     assert p.daylight_hours(ws) == pytest.approx(12.31, abs=0.01)  # FAO-56 Example 17, N
-    rs = _angstrom(8.5, BANGKOK, 105)
-    assert rs == pytest.approx(22.65, abs=0.02)  # FAO-56 Example 17, Rs (n = 8.5 h)
+    # Rs = [0.25 + 0.50 (0.69)] 38.06 = 22.65 as printed (eq. 35, n = 8.5 h).
     c = p.fao56_net_radiation_components_daily(
         22.65, 34.8 + FAO_K, 25.6 + FAO_K, 2.85, BANGKOK, 105, elevation=2.0
     )
@@ -174,6 +175,22 @@ def test_example_17():
 
 
 # --- Example 18: Uccle (Brussels), 6 July (daily) ---------------------------------------
+
+
+def test_example_18_overcast_holds_the_ratio_at_0_3():
+    # Example 18's day with Rs replaced by 2.0 MJ m-2 day-1 (Rs/Rso = 0.065).
+    # Expected: eq. 39 with Rs/Rso = 0.3 (ASCE-EWRI 2005 limit; FAO-56 p. 75:
+    # "Rs/Rso = 0.3 presumes total cloud cover"), from the printed
+    # (sigma Tmax^4 + sigma Tmin^4)/2 = 34.76 and ea = 1.409 of Example 18.
+    expected = 34.76 * (0.34 - 0.14 * math.sqrt(1.409)) * (1.35 * 0.3 - 0.35)
+    rnl = p.fao56_net_longwave_daily(21.5 + FAO_K, 12.3 + FAO_K, 1.409, 2.0, 30.90)
+    assert rnl == pytest.approx(expected, abs=0.001)  # FAO-56 Example 18 with Rs = 2.0
+    assert rnl > 0.0  # still a loss; unclamped 1.35 (0.065) - 0.35 < 0 would make it a gain
+    c = p.fao56_net_radiation_components_daily(
+        2.0, 21.5 + FAO_K, 12.3 + FAO_K, 1.409, deg(50, 48), 187, elevation=100.0
+    )
+    assert c["net_longwave"] == pytest.approx(expected, abs=0.001)
+    assert c["net_radiation"] == pytest.approx(0.77 * 2.0 - expected, abs=0.001)  # eqs. 38, 40
 
 
 def test_example_18():
@@ -195,19 +212,20 @@ NDIAYE_LON = -(16 + 15 / 60)  # 16 deg 15' W, i.e. Lm = 16.25 deg west
 # Local standard time 14:00-15:00 in the zone centred on Lz = 15 deg W (UTC-1),
 # so the midpoint t = 14.5 h local is 15.5 h UTC.
 NDIAYE_UTC_MID = 14.5 + 1.0
+NIGHT_UTC_MID = 2.5 + 1.0  # 02:00-03:00 local
 
 
 def test_example_19_intermediates():
     assert p.inverse_relative_distance(274) == pytest.approx(1.0001, abs=0.00005)  # Ex. 19
     assert p.solar_declination(274) == pytest.approx(-0.0753, abs=0.00005)  # FAO-56 Ex. 19
-    b = 2 * math.pi * (274 - 81) / 364  # FAO-56 eq. 33
-    assert b == pytest.approx(3.3315, abs=0.00005)  # FAO-56 Example 19
     assert p.seasonal_correction(274) == pytest.approx(0.1889, abs=0.00005)  # FAO-56 Ex. 19
     omega = p.hour_angle(NDIAYE_UTC_MID, NDIAYE_LON, 274)
-    assert omega == pytest.approx(0.682, abs=0.0005)  # FAO-56 Example 19
-    half = math.pi / 24  # eqs. 29-30 with t1 = 1 h
-    assert omega - half == pytest.approx(0.5512, abs=0.0005)  # FAO-56 Example 19, omega_1
-    assert omega + half == pytest.approx(0.8130, abs=0.0005)  # FAO-56 Example 19, omega_2
+    assert omega == pytest.approx(0.682, abs=0.0005)  # FAO-56 Example 19, 14-15 h
+    night = p.hour_angle(NIGHT_UTC_MID, NDIAYE_LON, 274)
+    assert night == pytest.approx(-2.46, abs=0.005)  # FAO-56 Example 19, 02-03 h
+    # Eq. 28 from the printed omega_1 = 0.5512 and omega_2 = 0.8130 rad.
+    ra = p.extraterrestrial_period(NDIAYE_LAT, 274, 0.5512, 0.8130)
+    assert ra == pytest.approx(3.543, abs=0.002)  # FAO-56 Example 19, MJ m-2 hour-1
 
 
 def test_example_19_hourly_radiation():
@@ -216,22 +234,33 @@ def test_example_19_hourly_radiation():
     rso = p.clear_sky_shortwave_fao56(ra, 8.0)
     assert rso == pytest.approx(2.658, abs=0.002)  # FAO-56 Example 19
     t_k = 38.0 + FAO_K
-    # Hourly sigma T^4 with sigma / 24 (FAO-56 p. 74).
-    assert STEFAN_BOLTZMANN_DAILY / 24 * t_k**4 == pytest.approx(1.915, abs=0.001)  # Ex. 19
-    # Hourly eq. 39: the hour's temperature as both Tmax and Tmin, divided by 24.
-    rnl = p.fao56_net_longwave_daily(t_k, t_k, 3.445, 2.450, rso) / 24.0
+    # sigma T^4 with sigma / 24 (FAO-56 p. 74): eq. 39 with e_a = 0 and
+    # Rs = Rso is 0.34 sigma T^4.
+    sigma_t4 = p.fao56_net_longwave_hourly(t_k, 0.0, 1.0, 1.0) / 0.34
+    assert sigma_t4 == pytest.approx(1.915, abs=0.001)  # FAO-56 Example 19
+    rnl = p.fao56_net_longwave_hourly(t_k, 3.445, 2.450, rso)  # ea from eq. 54 (printed)
     assert rnl == pytest.approx(0.137, abs=0.001)  # FAO-56 Example 19
     rns = p.net_shortwave(0.23, 2.450)
     assert rns == pytest.approx(1.887, abs=0.001)  # FAO-56 Example 19
     assert rns - rnl == pytest.approx(1.749, abs=0.001)  # FAO-56 Example 19, Rn
 
 
-def test_example_19_night_hour_has_no_extraterrestrial_radiation():
-    # 02:00-03:00 local = 03:00-04:00 UTC: FAO-56 Example 19 prints Ra = 0.
-    ra = p.extraterrestrial_hourly(NDIAYE_LAT, NDIAYE_LON, 274, 2.5 + 1.0, 1.0)
-    assert ra == 0.0  # FAO-56 Example 19, 02-03 h column
-    omega = p.hour_angle(2.5 + 1.0, NDIAYE_LON, 274)
-    assert omega == pytest.approx(-2.46, abs=0.005)  # FAO-56 Example 19, 02-03 h
+def test_example_19_night_hour():
+    # 02:00-03:00 local = 03:00-04:00 UTC; T = 28 degC, ea = 3.402 kPa, Rs = 0.
+    ra = p.extraterrestrial_hourly(NDIAYE_LAT, NDIAYE_LON, 274, NIGHT_UTC_MID, 1.0)
+    assert ra == 0.0  # FAO-56 Example 19, 02-03 h: Ra = 0
+    rso = p.clear_sky_shortwave_fao56(ra, 8.0)
+    assert rso == 0.0  # FAO-56 Example 19, 02-03 h: Rso = 0
+    t_k = 28.0 + FAO_K
+    sigma_t4 = p.fao56_net_longwave_hourly(t_k, 0.0, 1.0, 1.0) / 0.34
+    assert sigma_t4 == pytest.approx(1.681, abs=0.001)  # FAO-56 Example 19, 02-03 h
+    # At night Rs/Rso is assumed: 0.8 in Example 19 (FAO-56 p. 75).
+    rnl = p.fao56_net_longwave_hourly(t_k, 3.402, 0.0, rso, night_ratio=0.8)
+    assert rnl == pytest.approx(0.100, abs=0.001)  # FAO-56 Example 19, 02-03 h
+    rn = p.net_shortwave(0.23, 0.0) - rnl
+    assert rn == pytest.approx(-0.100, abs=0.001)  # FAO-56 Example 19, 02-03 h: Rn
+    # Without an assumed ratio the night-time cloudiness is unknown.
+    assert math.isnan(p.fao56_net_longwave_hourly(t_k, 3.402, 0.0, rso))
 
 
 # --- Example 20: near Lyon, July, temperature only --------------------------------------

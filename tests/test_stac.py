@@ -23,6 +23,7 @@ from scenario import RES, X0, Y0
 @pytest.fixture(scope="module")
 def run_dir(tmp_path_factory):
     sc = two_by_two(tmp_path_factory.mktemp("stac"), stac=True)
+    sc.write_config(**{"methods.scene_to_day": "shortwave-ratio"})   # a scene's own daily estimate too
     report = run_config(load_config(sc.config))
     return sc, sc.folder / "out", report
 
@@ -40,7 +41,8 @@ def test_catalog_opens_and_every_asset_exists(run_dir):
     assert isinstance(collection, pystac.Collection)
     assert sorted(items) == ["day-20260714", "day-20260715", "scene-20260714T1810", "scene-20260730T1755"]
     for item in items.values():
-        assert set(item.assets) == {"net_radiation", "net_shortwave", "net_longwave", "quality"}
+        scene_day = {"net_radiation_from_scene"} if item.id.startswith("scene-") else set()
+        assert set(item.assets) == {"net_radiation", "net_shortwave", "net_longwave", "quality"} | scene_day
         for asset in item.assets.values():
             assert not asset.href.startswith("/")
             assert (out / "stac").joinpath(asset.get_absolute_href()).resolve().is_file()
@@ -77,6 +79,7 @@ def test_times_raster_bands_and_roles(run_dir):
     band = rn["raster:bands"][0]
     assert (band["data_type"], band["nodata"], band["unit"]) == ("float32", "nan", "W m-2")
     assert day.assets["net_radiation"].to_dict()["raster:bands"][0]["unit"] == "MJ m-2 day-1"
+    assert scene.assets["net_radiation_from_scene"].to_dict()["raster:bands"][0]["unit"] == "MJ m-2 day-1"
     q = day.assets["quality"].to_dict()
     assert q["roles"] == ["metadata", "quality"]
     assert q["raster:bands"][0]["data_type"] == "uint8" and q["raster:bands"][0]["nodata"] == 255

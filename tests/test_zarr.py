@@ -22,6 +22,7 @@ from helpers_rasters import utm_grid
 @pytest.fixture(scope="module")
 def run_dir(tmp_path_factory):
     sc = two_by_two(tmp_path_factory.mktemp("zarr"), zarr=True)
+    sc.write_config(**{"methods.scene_to_day": "shortwave-ratio"})   # kept out of the day store
     report = run_config(load_config(sc.config))
     return sc, sc.folder / "out", report
 

@@ -23,7 +23,7 @@ from radledger.config import load_config
 from radledger.errors import ConfigError
 from radledger.io.lazy import read_product
 from radledger.runner import run_config
-from radledger.stages.zones import ZoneWarning
+from radledger.execution.events import RunEvents
 from radledger.errors import InputError, OutputError
 from radledger.grid import TargetGrid
 from radledger.io.vectors import read_zones
@@ -295,8 +295,14 @@ def test_run_warns_of_a_zone_off_the_grid_and_writes_coverage_tables(tmp_path):
     _write_geojson(tmp_path / "basins.geojson", [_feature({"basin": k}, [list(to_ll.transform(*p)) for p in r])
                                                  for k, r in rings.items()])
     sc.write_config(**{"zones.path": "basins.geojson", "zones.id": "basin", "zones.weighting": "coverage"})
-    with pytest.warns(ZoneWarning, match=r"zone 'half' has only 50\.0% of its area on the grid"):
-        run_config(load_config(sc.config))
+    class Heard(RunEvents):
+        said: list = []
+
+        def warn(self, text):
+            self.said.append(text)
+
+    run_config(load_config(sc.config), events=Heard())
+    assert len(Heard.said) == 1 and "zone 'half' has only 50.0% of its area on the grid" in Heard.said[0]
     with open(tmp_path / "out" / "zones" / "net_radiation_20260714T1810.csv", newline="") as fh:
         table = {r["basin"]: r for r in csv.DictReader(fh)}
     assert set(table) == {"inner", "half"}

@@ -157,6 +157,23 @@ class TargetGrid:
             return x, y
         return self._to_lonlat.transform(x, y)
 
+    def to_lonlat(self, x, y) -> tuple[np.ndarray, np.ndarray]:
+        """Longitude, latitude [deg] of points ``x, y`` in the grid's CRS."""
+        return self._to_lonlat.transform(x, y)
+
+    @cached_property
+    def identity(self) -> str:
+        """An exact identity of the grid: CRS (WKT), affine transform (every coefficient, exactly) and shape.
+
+        Two grids that differ in anything that moves a pixel - half a pixel of
+        origin, one standard parallel of a custom projection - have different
+        identities; the chunk edge is not part of it (it changes no pixel).
+        Settings hashes and task names use this, never :meth:`describe`.
+        """
+        t = self.transform
+        coefficients = ",".join(float(v).hex() for v in (t.a, t.b, t.c, t.d, t.e, t.f))
+        return f"{self.crs.to_wkt()}|{coefficients}|{self.width}x{self.height}"
+
     @cached_property
     def _to_lonlat(self):
         from pyproj import Transformer

@@ -19,6 +19,8 @@ UNIT_ALIASES: dict[str, str] = {
     "w m-2": "W m-2", "w/m2": "W m-2", "w m^-2": "W m-2", "w/m^2": "W m-2", "w m**-2": "W m-2",
     "mj m-2 day-1": "MJ m-2 day-1", "mj/m2/day": "MJ m-2 day-1", "mj m-2 d-1": "MJ m-2 day-1",
     "mj/m2/d": "MJ m-2 day-1",
+    # a mean over the daylight hours (daily shortwave of some gridded products)
+    "w m-2 daylight": "W m-2 daylight", "w/m2 daylight": "W m-2 daylight",
     "%": "%", "percent": "%",
     "1": "1", "fraction": "1", "": "1",
     "m": "m", "metre": "m", "meter": "m", "metres": "m", "meters": "m",

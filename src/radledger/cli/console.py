@@ -13,7 +13,7 @@ from ..execution.graph import ValueSummary
 from ..kinds import TimeKind
 from ..planning.checks import human_bytes
 
-__all__ = ["describe_plan", "ConsoleEvents", "summary_table", "where_everything_went"]
+__all__ = ["describe_plan", "ConsoleEvents", "WarningsOnly", "summary_table", "where_everything_went"]
 
 
 def describe_plan(plan) -> str:
@@ -31,7 +31,8 @@ def describe_plan(plan) -> str:
     for j in plan.jobs:
         modelled = " (clear-sky shortwave modelled)" if j.kind == "scenes" and \
             "shortwave_down" not in j.sources else ""
-        lines.append(f"  {j.kind.singular:5s} {j.label}: {len(j.outputs)} product(s){modelled}")
+        lines.append(f"  {j.kind.singular:5s} {j.label}: {len(j.outputs)} product(s){modelled}"
+                     + "".join(f"; {n}" for n in j.notes))
     for c in cfg.composites:
         lines.append(f"  composite {c.name}: {c.source} {c.start} .. {c.end} "
                      f"({', '.join(c.statistics)}; min_count {c.min_count})")
@@ -39,7 +40,14 @@ def describe_plan(plan) -> str:
     return "\n".join(lines)
 
 
-class ConsoleEvents(RunEvents):
+class WarningsOnly(RunEvents):
+    """``--quiet``: nothing but warnings, on stderr."""
+
+    def warn(self, text: str) -> None:
+        print(f"warning: {text}", file=sys.stderr, flush=True)
+
+
+class ConsoleEvents(WarningsOnly):
     """Run events as lines on stdout; a progress bar on stderr when it is a terminal."""
 
     def __init__(self, stream=None, *, progress: bool | None = None):
@@ -57,10 +65,11 @@ class ConsoleEvents(RunEvents):
 
     def job_done(self, result) -> None:
         job = result.job
+        notes = "".join(f"; {n}" for n in result.notes)
         if result.written:
-            self.say(f"  {job.kind.singular} {job.label}: wrote {len(result.written)} product(s)")
+            self.say(f"  {job.kind.singular} {job.label}: wrote {len(result.written)} product(s){notes}")
         elif result.skipped:
-            self.say(f"  {job.kind.singular} {job.label}: up to date, skipped")
+            self.say(f"  {job.kind.singular} {job.label}: up to date, skipped{notes}")
 
     def stage_done(self, stage: str, written: int, skipped: int = 0) -> None:
         if stage.startswith("composite "):

@@ -124,7 +124,7 @@ def main(argv: list[str] | None = None) -> int:
 
 def _dispatch(args) -> int:
     from ..config import load_config
-    from .console import ConsoleEvents, describe_plan, where_everything_went
+    from .console import ConsoleEvents, WarningsOnly, describe_plan, where_everything_went
 
     if args.command == "info":
         from ..outputs.info import describe_product
@@ -138,8 +138,7 @@ def _dispatch(args) -> int:
         print("check: config and inputs OK; nothing computed")
         return 0
     from ..runner import run_config
-    from ..execution.events import RunEvents
-    events = RunEvents() if args.quiet else ConsoleEvents()
+    events = WarningsOnly() if args.quiet else ConsoleEvents()
     if args.command == "demo":
         cfg = load_config(demo_config(), output_override=os.path.abspath(args.out))
         report = run_config(cfg, overwrite=args.overwrite, events=events)

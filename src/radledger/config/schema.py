@@ -54,7 +54,7 @@ class EmissivitySpec:
 class Methods:
     sky_emissivity: str = "brutsaert"
     clouds: str = "none"
-    clear_sky_shortwave: str = "fao56"
+    clear_sky_shortwave: str = "beam-diffuse"
     scene_to_day: str = "none"
 
 

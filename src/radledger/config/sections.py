@@ -6,6 +6,7 @@ import os
 from pathlib import Path
 
 from ..io.cog import COMPRESSIONS
+from ..io.paths import is_remote
 from ..model.layers import ALL_LAYERS, LAYERS
 from ..model.products import ALL_PRODUCT_NAMES, DEFAULT_PRODUCTS
 from ..physics.longwave import CLOUD_MODELS, SKY_EMISSIVITY_MODELS
@@ -168,6 +169,10 @@ def output(v, value) -> OutputSpec:
     else:
         if not isinstance(directory, str) or not directory.strip():
             v.fail("output.directory", "must be a folder path")
+            directory = str(OutputSpec.directory)
+        elif is_remote(directory.strip()) or "://" in directory:
+            v.fail("output.directory", f"{directory!r} is not a local folder; products are written to local (or "
+                                       f"mounted) folders - write there and copy to the object store")
             directory = str(OutputSpec.directory)
         d = Path(os.path.expanduser(directory))
         d = d if d.is_absolute() else v.base / d

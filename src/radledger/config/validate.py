@@ -14,6 +14,7 @@ from pathlib import Path
 
 from ..errors import ConfigError
 from ..io.paths import is_remote, is_url
+from ..model.needs import day_needs, scene_needs
 from . import composites as _composites, entries as _entries, sections as _sections
 from .schema import Config, keys_of
 
@@ -130,6 +131,21 @@ class Validator:
             t = t.replace(tzinfo=dt.timezone.utc)   # documented: naive times are UTC
         return t.astimezone(dt.timezone.utc)
 
+    def _dem_needed(self, scenes, days, methods, output, emissivity, static) -> None:
+        """A DEM wherever what is asked needs one (model/needs.py says what needs it)."""
+        if "elevation" in static:
+            return
+        reasons = []
+        for s in scenes:
+            n = scene_needs(s.layers, products=output.products, sky_emissivity=methods.sky_emissivity,
+                            clouds=methods.clouds, scene_to_day=methods.scene_to_day,
+                            emissivity_constant=emissivity.constant is not None)
+            reasons += [r for r in n.why_elevation.split("; ") if n.elevation and r]
+        if days:
+            reasons.append(day_needs(days[0].layers, products=output.products).why_elevation)
+        for reason in dict.fromkeys(reasons):
+            self.fail("static.elevation", f"needed for {reason}; give a DEM")
+
     # ---- the whole config ----------------------------------------------------
     def build(self) -> Config | None:
         raw = self.mapping(self.raw, "", TOP_KEYS)
@@ -155,14 +171,7 @@ class Validator:
                                            "or set emissivity.constant")
         if needs_lc and emissivity.table is None:
             self.fail("emissivity.table", "give a class,emissivity CSV table or emissivity.constant")
-        if days and "elevation" not in static:
-            self.fail("static.elevation", "needed for FAO-56 daily maps (clear-sky shortwave); give a DEM")
-        if any("shortwave_down" not in s.layers for s in scenes) and "elevation" not in static:
-            self.fail("static.elevation", "needed to model clear-sky shortwave for scenes without "
-                                          "shortwave_down; give a DEM")
-        if methods.clouds != "none" and scenes and "elevation" not in static:
-            self.fail("static.elevation", f"methods.clouds: {methods.clouds} needs clear-sky shortwave, "
-                                          f"which needs a DEM")
+        self._dem_needed(scenes, days, methods, output, emissivity, static)
         if self.problems:
             return None
         return Config(path=self.path, title=str(title), grid=grid, layers=layers, static=static,

@@ -27,6 +27,9 @@ class RunEvents:
     def finished(self, report) -> None:
         """The whole run finished."""
 
+    def warn(self, text: str) -> None:
+        """Something the user should know although the run goes on (one line, names what and where)."""
+
     # progress of one graph (a job or a stage)
     def progress(self, label: str):
         """A context manager shown around one local computation (None: nothing shown)."""

@@ -20,9 +20,10 @@ from ..grid import TargetGrid
 from ..io.cog import ProductFile, is_current
 from ..io.overviews import mean_pyramid, nearest_levels, overview_factors
 from ..kinds import TimeKind
-from ..model.fused import fused_applies
-from ..model.kernels import day_kernel, scene_kernel, sun_may_be_down
-from ..model.products import QUALITY_BITS, Product, product_info
+from ..model.kernels import day_kernel, scene_kernel
+from ..model.sun import sun_geometry, sun_up_everywhere
+from ..physics import CLEARNESS_MIN_SUN_ELEVATION
+from ..model.products import SCENE_DAY_PRODUCT, Product, product_info
 from ..planning.plan import Job, Plan
 from ..planning.provenance import job_product_tags
 from .engine import Engine
@@ -63,8 +64,8 @@ class FlagSummary:
 
 
 def target_product(job: Job, name: str) -> Product:
-    """What product ``name`` of ``job`` is (a scene's ``daily_net_radiation`` is a day product)."""
-    if name == "daily_net_radiation":
+    """What product ``name`` of ``job`` is (a scene's ``net_radiation_from_scene`` is a day product)."""
+    if name == SCENE_DAY_PRODUCT:
         return product_info("net_radiation", TimeKind.DAYS)
     return product_info(name, job.kind)
 
@@ -75,17 +76,29 @@ def chunk_products(job: Job, grid: TargetGrid, window, names: tuple[str, ...], *
     arrays = {k: s.read(grid, window) for k, s in job.sources.items()}
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         if job.kind is TimeKind.SCENES:
-            need = job.needs_lonlat
-            if need and fused_applies(job.params, arrays):
-                # the fused path needs coordinates only to flag sun-down pixels: check the corners
-                lon_c, lat_c = grid.lonlat_corners(window)
-                need = sun_may_be_down(lat_c, lon_c, job.params)
-            lon, lat = grid.lonlat(window) if need else (None, None)
-            out = scene_kernel(arrays, lon, lat, job.params, reuse=reuse)
+            p = job.params
+            sun = sun_geometry(grid, window, p.time) if _sun_needed(p, grid, window) else None
+            lonlat = grid.lonlat(window) if p.scene_to_day != "none" else None
+            out = scene_kernel(arrays, sun, lonlat, p, reuse=reuse)
         else:
             _, lat = grid.lonlat(window)
             out = day_kernel(arrays, lat, job.params)
     return {n: out[n] for n in names}
+
+
+def _sun_needed(p, grid: TargetGrid, window) -> bool:
+    """Whether a scene chunk needs the sun per pixel.
+
+    Where only the quality bits need it (sun down, sun low) and the sun stands
+    well above the low-sun limit at every corner of the chunk, no pixel can
+    carry those bits: the per-pixel pass is skipped (1 deg of margin).
+    """
+    needs = p.needs
+    if not needs.sun:
+        return False
+    if needs.clear_sky or p.scene_to_day != "none":
+        return True
+    return not sun_up_everywhere(grid, window, p.time, min_elevation=CLEARNESS_MIN_SUN_ELEVATION + 1.0)
 
 
 def _chunk_task(job: Job, grid: TargetGrid, window, names, sinks) -> dict:
@@ -99,8 +112,9 @@ def _chunk_task(job: Job, grid: TargetGrid, window, names, sinks) -> dict:
         full[slice(r0, r0 + h), slice(c0, c0 + w)] = a
         if target_product(job, n).is_flags:
             blocks = nearest_levels(a, tuple(levels)) if levels else {}
-            summary[n] = FlagSummary(int(np.count_nonzero(a & QUALITY_BITS["out_of_range"])),
-                                     int(np.count_nonzero(a & QUALITY_BITS["input_missing"])))
+            bits = target_product(job, n).flags
+            summary[n] = FlagSummary(int(np.count_nonzero(a & bits["out_of_range"])),
+                                     int(np.count_nonzero(a & bits["input_missing"])))
         else:
             blocks, (lo, hi, tot, cnt) = mean_pyramid(a, tuple(levels) or (2,))
             blocks = {f: blocks[f] for f in levels}
@@ -128,7 +142,7 @@ def job_graph(job: Job, grid: TargetGrid, names: tuple[str, ...], sinks: dict) -
     (with its lookup table) once per chunk, which cost more than the chunk's
     arithmetic on small grids.
     """
-    name = f"radledger-{job.kind}-{job.label}-" + tokenize(job.settings_hash, names, grid.describe())
+    name = f"radledger-{job.kind}-{job.label}-" + tokenize(job.settings_hash, names, grid.identity, grid.chunk)
     dsk = {(name, k): (_chunk_task, job, grid, win, names, sinks) for k, win in enumerate(grid.windows())}
     return dsk, list(dsk)
 
@@ -139,6 +153,10 @@ class JobResult:
     written: list[Path] = field(default_factory=list)
     skipped: list[Path] = field(default_factory=list)
     summary: dict = field(default_factory=dict)   # product -> ValueSummary | FlagSummary
+
+    @property
+    def notes(self) -> tuple[str, ...]:
+        return self.job.notes
 
 
 def run_job(plan: Plan, job: Job, engine: Engine, *, overwrite: bool = False) -> JobResult:

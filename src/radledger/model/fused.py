@@ -4,11 +4,13 @@ The NumPy kernel in :mod:`radledger.model.kernels` makes about a dozen full-size
 temporaries per chunk and runs the ``(e/T)**(1/7)`` power through NumPy's
 generic pow; this loop reads each input once, keeps everything in registers
 and writes the products directly (benchmarks/bench_kernel.py measures both).
-It covers the configuration most runs use: Brutsaert sky emissivity, no
-cloud correction, shortwave given, humidity as vapour pressure, emissivity
-from a table or a constant, products among net radiation / shortwave /
-longwave / quality.  Everything else goes through the NumPy kernel, which is
-the reference: tests/test_fused.py checks that the two agree.
+It covers the configuration most runs use (model/needs.py decides where it
+applies, in one place): Brutsaert sky emissivity, no cloud correction,
+shortwave given, humidity as vapour pressure, emissivity from a table or a
+constant, products among net radiation / shortwave / longwave / quality.
+Everything else goes through the NumPy kernel, which is the reference:
+tests/test_fused.py checks that the two agree, product by product and bit by
+bit.
 
 ``nogil=True`` so Dask's threads run chunks truly in parallel; no
 ``parallel=True`` (Dask already uses every core).  ``cache=True`` keeps the
@@ -24,20 +26,10 @@ import numpy as np
 
 from ..physics.constants import STEFAN_BOLTZMANN
 from .layers import PHYSICAL_RANGES
-from .products import QUALITY_BITS
+from .products import SCENE_QUALITY_BITS as QUALITY_BITS
 from .surface import chunk_emissivity
 
-__all__ = ["fused_applies", "fused_scene", "FUSED_PRODUCTS", "FUSED_INPUTS"]
-
-FUSED_PRODUCTS = ("net_radiation", "net_shortwave", "net_longwave", "quality")
-
-
-def fused_applies(params, layers) -> bool:
-    """True when the fused loop computes exactly what the NumPy kernel would."""
-    return (params.sky_emissivity == "brutsaert" and params.clouds == "none"
-            and "shortwave_down" in layers and "vapour_pressure" in layers
-            and set(params.products) <= set(FUSED_PRODUCTS))
-
+__all__ = ["fused_scene", "FUSED_INPUTS"]
 
 _R = PHYSICAL_RANGES
 _MISSING = QUALITY_BITS["input_missing"]
@@ -144,7 +136,7 @@ def _scratch(n: int):
 
 
 def fused_scene(arrays: dict[str, np.ndarray], params, *, reuse: bool = False) -> dict[str, np.ndarray]:
-    """The fused products of one chunk (see :func:`fused_applies`).
+    """The fused products of one chunk (where ``params.needs.fused``, see model/needs.py).
 
     ``reuse=True`` returns views of per-thread buffers that the thread's next
     call overwrites (for chunk tasks that write the products out at once).

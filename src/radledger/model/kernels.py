@@ -10,16 +10,18 @@ from __future__ import annotations
 import numpy as np
 
 from .. import physics as ph
-from .fused import fused_applies, fused_scene
+from .fused import fused_scene
 from .layers import PHYSICAL_RANGES
 from .params import DayParams, SceneParams
-from .products import QUALITY_BITS
+from .products import DAY_QUALITY_BITS, SCENE_DAY_PRODUCT, SCENE_QUALITY_BITS
+from .sun import SunGeometry
 from .surface import chunk_emissivity
 
-__all__ = ["scene_kernel", "day_kernel", "humidity_to_kpa", "sun_may_be_down"]
+__all__ = ["scene_kernel", "day_kernel", "humidity_to_kpa", "clear_sky_shortwave"]
 
-B = QUALITY_BITS
-CLOUD_FLAG_FRACTION = 0.1   # Crawford-Duchon cloud fraction above which `cloud_corrected` is set
+B = {**SCENE_QUALITY_BITS, **DAY_QUALITY_BITS}  # the bits' names are unique across both kinds
+CLOUD_FLAG_FRACTION = 0.1
+REFERENCE_ALBEDO = 0.23     # FAO-56 grass reference albedo, used (and flagged) for days without an albedo   # Crawford-Duchon cloud fraction above which `cloud_corrected` is set
 
 
 def _checked(arrays: dict, name: str, quality: np.ndarray, rng_key: str | None = None) -> np.ndarray:
@@ -50,51 +52,50 @@ def humidity_to_kpa(arrays: dict, quality: np.ndarray, temperature: np.ndarray |
     return ph.vapour_pressure_from_relative_humidity(rh, temperature)
 
 
-def sun_may_be_down(lat: np.ndarray, lon: np.ndarray, p: SceneParams) -> bool:
-    """False when the sun is well up at every corner of the chunk (then no pixel can be sun-down).
-
-    The sun's elevation changes by well under a degree across a chunk, so
-    50 W m-2 of extraterrestrial irradiance (about 2 degrees of elevation) at
-    all four corners leaves every pixel in between with the sun up; this
-    skips a full-chunk sun-position pass on daytime scenes.
-    """
-    idx = ([0, 0, -1, -1], [0, -1, 0, -1])
-    ra = ph.extraterrestrial_instant(np.asarray(lat)[idx], np.asarray(lon)[idx], p.day_of_year, p.utc_hour)
-    return not bool(np.all(ra > 50.0))
+def clear_sky_shortwave(sun: SunGeometry, elevation: np.ndarray, vapour_pressure: np.ndarray,
+                        method: str) -> np.ndarray:
+    """Clear-sky shortwave at the instant [W m-2]: App. D beam + diffuse (default) or FAO-56 eq. 37."""
+    if method == "beam-diffuse":
+        pressure = ph.atmospheric_pressure(elevation)
+        return ph.clear_sky_shortwave_beam_diffuse(sun.extraterrestrial, sun.cos_zenith, pressure,
+                                                   ph.precipitable_water(vapour_pressure, pressure))
+    return ph.clear_sky_shortwave_fao56(sun.extraterrestrial, elevation)
 
 
-def scene_kernel(arrays: dict[str, np.ndarray], lon: np.ndarray | None, lat: np.ndarray | None,
-                 p: SceneParams, *, reuse: bool = False) -> dict[str, np.ndarray]:
+def _sun_flags(q: np.ndarray, sun: SunGeometry) -> None:
+    q[sun.sun_down] |= B["sun_down"]
+    low = ph.low_sun(sun.elevation) & ~sun.sun_down
+    q[low] |= B["low_sun"]
+
+
+def scene_kernel(arrays: dict[str, np.ndarray], sun: SunGeometry | None, lonlat, p: SceneParams, *,
+                 reuse: bool = False) -> dict[str, np.ndarray]:
     """Every scene product of one chunk [W m-2, 1]; see :data:`products.SCENE_PRODUCTS`.
 
-    ``reuse``: the fused path may return per-thread buffers valid until the thread's next call.
+    ``sun``: the sun over the chunk when ``p.needs.sun`` (else None); ``lonlat``: the pixels'
+    longitude and latitude when the scene-to-day product is asked for.  ``reuse``: the fused
+    path may return per-thread buffers valid until the thread's next call.
     """
+    needs = p.needs
     shape = next(iter(arrays.values())).shape
-    q = np.zeros(shape, dtype=np.uint8)
-    if fused_applies(p, arrays):
+    if needs.fused:
         out = fused_scene(arrays, p, reuse=reuse)
-        if lat is not None and sun_may_be_down(lat, lon, p):
-            ra = ph.extraterrestrial_instant(lat, lon, p.day_of_year, p.utc_hour)
-            out["quality"][ra <= 0] |= B["sun_down"]
+        if sun is not None:
+            _sun_flags(out["quality"], sun)
         return out
+    q = np.zeros(shape, dtype=np.uint8)
     albedo = _checked(arrays, "albedo", q)
     ts = _checked(arrays, "surface_temperature", q)
     ta = _checked(arrays, "air_temperature", q)
     ea = humidity_to_kpa(arrays, q, ta)
     eps_s = chunk_emissivity(arrays, p, q)
 
-    rso = None
-    if lat is not None:
-        ra = ph.extraterrestrial_instant(lat, lon, p.day_of_year, p.utc_hour)
-        q[ra <= 0] |= B["sun_down"]
+    if sun is not None:
+        _sun_flags(q, sun)
+    rso = z = None
+    if needs.clear_sky:
         z = _checked(arrays, "elevation", q)
-        if p.clear_sky_shortwave == "beam-diffuse":
-            cosz = ph.cos_zenith(lat, ph.solar_declination(p.day_of_year),
-                                 ph.hour_angle(p.utc_hour, lon, p.day_of_year))
-            pres = ph.atmospheric_pressure(z)
-            rso = ph.clear_sky_shortwave_beam_diffuse(ra, cosz, pres, ph.precipitable_water(ea, pres))
-        else:
-            rso = ph.clear_sky_shortwave_fao56(ra, z)
+        rso = clear_sky_shortwave(sun, z, ea, p.clear_sky_shortwave)
     if "shortwave_down" in arrays:
         rs = _checked(arrays, "shortwave_down", q)
     else:
@@ -104,13 +105,11 @@ def scene_kernel(arrays: dict[str, np.ndarray], lon: np.ndarray | None, lat: np.
     eps_clear = ph.sky_emissivity(ta, ea, model=p.sky_emissivity)
     eps_sky = eps_clear
     if p.clouds == "crawford-duchon":
-        with np.errstate(invalid="ignore", divide="ignore"):
-            day = rso > 0
-            cd = ph.crawford_duchon_1999(eps_clear, rs, np.where(day, rso, np.float32(1.0)))
-            eps_sky = np.where(day, cd, eps_clear)
-            # flag only a noticeable correction: cloud fraction c = 1 - Rs/Rso >= CLOUD_FLAG_FRACTION
-            q[day & (rs < (1.0 - CLOUD_FLAG_FRACTION) * rso)] |= B["cloud_corrected"]
-            q[day & (rs > rso)] |= B["shortwave_capped"]
+        elevation = sun.elevation
+        eps_sky = ph.crawford_duchon_1999(eps_clear, rs, rso, sun_elevation=elevation)
+        # flag only a noticeable correction: cloud fraction c = 1 - Rs/Rso >= CLOUD_FLAG_FRACTION
+        corrected = ~ph.low_sun(elevation) & (rso > 0) & (rs < (1.0 - CLOUD_FLAG_FRACTION) * rso)
+        q[corrected] |= B["cloud_corrected"]
 
     out: dict[str, np.ndarray] = {}
     rld = ph.longwave_down(eps_sky, ta)
@@ -131,39 +130,50 @@ def scene_kernel(arrays: dict[str, np.ndarray], lon: np.ndarray | None, lat: np.
         out["surface_emissivity"] = eps_s
     if "sky_emissivity" in want:
         out["sky_emissivity"] = eps_sky
-    if "daily_net_radiation" in want:
-        out["daily_net_radiation"] = _scene_to_day(out.get("net_radiation", rns - rnl), lon, lat, rso, p)
+    if SCENE_DAY_PRODUCT in want:
+        out[SCENE_DAY_PRODUCT] = _scene_to_day(out.get("net_radiation", rns - rnl), lonlat, sun, rso, z, p)
     if "quality" in want:
         out["quality"] = q
     return out
 
 
-def _scene_to_day(rn: np.ndarray, lon, lat, rso, p: SceneParams) -> np.ndarray:
+def _scene_to_day(rn: np.ndarray, lonlat, sun: SunGeometry, rso, z, p: SceneParams) -> np.ndarray:
     """Daily net radiation [MJ m-2 day-1] from an instantaneous map; NaN while the sun is down."""
+    lon, lat = lonlat
     if p.scene_to_day == "sinusoidal":
         rise, sset = ph.sunrise_sunset(lat, lon, p.day_of_year)
         day = ph.sinusoidal_daily_bisht_2005(rn, p.utc_hour, rise, sset)
     else:
-        # Jackson et al. (1983) ratio with clear-sky shortwave for both the day and the instant
-        z = rso / ph.extraterrestrial_instant(lat, lon, p.day_of_year, p.utc_hour)   # (0.75 + 2e-5 z)
-        rso_day = z * ph.extraterrestrial_daily(lat, p.day_of_year)
+        # Jackson et al. (1983): Rn_day = Rn x Rso_day / Rso; the day's clear sky by FAO-56 eq. 37
+        rso_day = ph.clear_sky_shortwave_fao56(ph.extraterrestrial_daily(lat, p.day_of_year), z)
         day = ph.shortwave_ratio_daily_jackson_1983(rn, rso, rso_day)
-    return np.where(rso > 0, day, np.float32(np.nan)).astype(np.float32)
+    return np.where(sun.cos_zenith > 0, day, np.float32(np.nan)).astype(np.float32)
 
 
 def day_kernel(arrays: dict[str, np.ndarray], lat: np.ndarray, p: DayParams) -> dict[str, np.ndarray]:
     """Every FAO-56 day product of one chunk [MJ m-2 day-1]."""
     shape = lat.shape
     q = np.zeros(shape, dtype=np.uint8)
+    if p.shortwave_daylight_mean:
+        # a mean over the daylight hours [W m-2] x the day length N (FAO-56 eqs. 25 and 34) -> MJ m-2 day-1
+        n_hours = ph.daylight_hours(ph.sunset_hour_angle(lat, ph.solar_declination(p.day_of_year)))
+        arrays = {**arrays, "shortwave_down": arrays["shortwave_down"] * (n_hours * 3600e-6)}
     rs = _checked(arrays, "shortwave_down", q, "shortwave_down_day")
     tmax = _checked(arrays, "air_temperature_max", q)
     tmin = _checked(arrays, "air_temperature_min", q)
     ea = humidity_to_kpa(arrays, q, None, tmax, tmin)
     z = _checked(arrays, "elevation", q)
-    albedo = _checked(arrays, "albedo", q) if "albedo" in arrays else np.float32(0.23)
+    if "albedo" in arrays:
+        albedo = _checked(arrays, "albedo", q)
+    else:   # FAO-56's grass reference, flagged: snow, water and forest differ a lot
+        albedo = np.float32(REFERENCE_ALBEDO)
+        q |= B["albedo_default"]
     terms = ph.fao56_net_radiation_components_daily(rs, tmax, tmin, ea, lat, p.day_of_year, z, albedo)
-    with np.errstate(invalid="ignore"):
-        q[rs > terms["clear_sky_shortwave"]] |= B["shortwave_capped"]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        rso = terms["clear_sky_shortwave"]
+        lo, hi = ph.RELATIVE_SHORTWAVE_LIMITS
+        q[rs > hi * rso] |= B["shortwave_capped"]
+        q[(rso > 0) & (rs < lo * rso)] |= B["overcast_held"]
     out = {}
     for name in ("net_radiation", "net_shortwave", "net_longwave", "clear_sky_shortwave"):
         if name in p.products:

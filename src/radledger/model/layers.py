@@ -13,7 +13,7 @@ from dataclasses import dataclass
 from ..kinds import TimeKind
 
 __all__ = ["Layer", "LAYERS", "PHYSICAL_RANGES", "HUMIDITY_LAYERS", "SCENE_LAYERS", "DAY_LAYERS",
-           "STATIC_ONLY", "ALL_LAYERS", "layer_range"]
+           "STATIC_ONLY", "ALL_LAYERS", "layer_range", "SHORTWAVE_UNITS"]
 
 
 @dataclass(frozen=True)
@@ -46,8 +46,8 @@ LAYERS: dict[str, Layer] = {x.name: x for x in [
     Layer("dewpoint_temperature", _DEGREES, (160.0, 320.0)),
     Layer("vapour_pressure", ("kPa", "hPa", "Pa"), (0.0, 8.0)),      # e deg at 41 degC is ~7.8 kPa
     Layer("relative_humidity", ("%", "1"), (0.0, 100.0)),
-    # scenes hold W m-2, days MJ m-2 day-1: the range depends on the time kind (layer_range)
-    Layer("shortwave_down", ("W m-2", "MJ m-2 day-1"), (0.0, 1500.0)),
+    # scenes hold W m-2, days MJ m-2 day-1 (layer_range and SHORTWAVE_UNITS say which units each takes)
+    Layer("shortwave_down", ("W m-2", "MJ m-2 day-1", "W m-2 daylight"), (0.0, 1500.0)),
     Layer("land_cover", ("1",), None, categorical=True),
     Layer("elevation", ("m",), (-500.0, 9000.0)),
 ]}
@@ -65,6 +65,13 @@ SCENE_LAYERS = ("albedo", "surface_temperature", "air_temperature", "shortwave_d
 DAY_LAYERS = ("shortwave_down", "air_temperature_max", "air_temperature_min", "albedo") + HUMIDITY_LAYERS
 STATIC_ONLY = ("land_cover", "elevation")
 ALL_LAYERS = tuple(dict.fromkeys(SCENE_LAYERS + DAY_LAYERS + STATIC_ONLY))
+
+
+#: the units shortwave may be declared in, per time kind; the first is the internal unit.  Days: a
+#: daily total, a 24-hour mean (x 0.0864) or a mean over the daylight hours (x N 3600 / 1e6, with the
+#: day length N of FAO-56 eq. 34 for each pixel and date).
+SHORTWAVE_UNITS = {TimeKind.SCENES: ("W m-2",),
+                   TimeKind.DAYS: ("MJ m-2 day-1", "W m-2", "W m-2 daylight")}
 
 
 def layer_range(name: str, kind: TimeKind = TimeKind.SCENES) -> tuple[float, float] | None:

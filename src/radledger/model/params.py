@@ -7,6 +7,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .needs import Needs
+
 __all__ = ["SceneParams", "DayParams"]
 
 
@@ -14,9 +16,10 @@ __all__ = ["SceneParams", "DayParams"]
 class SceneParams:
     time: dt.datetime
     products: tuple[str, ...]
+    needs: Needs
     sky_emissivity: str = "brutsaert"
     clouds: str = "none"
-    clear_sky_shortwave: str = "fao56"
+    clear_sky_shortwave: str = "beam-diffuse"
     emissivity_lut: np.ndarray | None = field(default=None, compare=False)
     emissivity_constant: float | None = None
     emissivity_unknown: float | None = None      # for classes not in the table; None = stop with an error
@@ -38,6 +41,8 @@ class SceneParams:
 class DayParams:
     date: dt.date
     products: tuple[str, ...]
+    needs: Needs
+    shortwave_daylight_mean: bool = False   # shortwave given as a mean over daylight hours [W m-2]
 
     @property
     def day_of_year(self) -> int:

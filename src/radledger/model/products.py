@@ -11,10 +11,32 @@ from dataclasses import dataclass
 from ..kinds import TimeKind
 
 __all__ = ["Product", "SCENE_PRODUCTS", "DAY_PRODUCTS", "DEFAULT_PRODUCTS", "product_info",
-           "QUALITY_BITS", "QUALITY_NODATA", "COMPOSITE_STATISTICS", "ALL_PRODUCT_NAMES"]
+           "SCENE_QUALITY_BITS", "DAY_QUALITY_BITS", "quality_bits", "SCENE_DAY_PRODUCT", "QUALITY_NODATA", "COMPOSITE_STATISTICS",
+           "ALL_PRODUCT_NAMES"]
 
 # quality: uint8 bit flags; 255 marks pixels outside the grid's data (never set otherwise).
 QUALITY_NODATA = 255
+
+
+# quality: uint8 bit flags, one table per time kind (the names are unique across both); 255 marks
+# pixels outside the grid's data and never occurs otherwise (no kind sets every bit at once:
+# sun_down and low_sun exclude each other, as do shortwave_capped and overcast_held).
+SCENE_QUALITY_BITS: dict[str, int] = {
+    "input_missing": 1,          # an input the pixel needs is nodata or off its footprint
+    "out_of_range": 2,           # an input value outside its physical range (set to NaN)
+    "modelled_shortwave": 4,     # shortwave_down modelled as clear sky (no shortwave grid given)
+    "cloud_corrected": 8,        # Crawford-Duchon cloud fraction 1 - Rs/Rso >= 0.1 (sky emissivity raised)
+    "emissivity_default": 16,    # land-cover class missing from the table, `unknown` value used
+    "sun_down": 32,              # sun below the horizon at the scene time
+    "low_sun": 64,               # sun above the horizon but below 10 deg: no cloud correction from Rs/Rso
+}
+DAY_QUALITY_BITS: dict[str, int] = {
+    "input_missing": 1,
+    "out_of_range": 2,
+    "albedo_default": 4,         # no albedo for the day: FAO-56's grass reference 0.23 used
+    "shortwave_capped": 64,      # Rs/Rso above 1, held at 1 in the longwave term (FAO-56 eq. 39)
+    "overcast_held": 128,        # Rs/Rso below 0.3, held at 0.3 (ASCE-EWRI 2005 limits)
+}
 
 
 @dataclass(frozen=True)
@@ -26,11 +48,12 @@ class Product:
     dtype: str = "float32"
     diverging: bool = False    # quicklook colour map centred on zero
     positive: str = ""         # sign convention in words
+    flags: dict[str, int] | None = None   # bit meanings of a flag product (uint8)
 
     @property
     def is_flags(self) -> bool:
         """Bit flags (uint8): overviews by nearest pixel, a declared nodata, a legend, no statistics."""
-        return self.dtype == "uint8"
+        return self.flags is not None
 
     @property
     def nodata(self) -> float:
@@ -55,7 +78,7 @@ SCENE_PRODUCTS: dict[str, Product] = {p.name: p for p in [
             "surface_upwelling_longwave_flux_in_air"),
     Product("surface_emissivity", "broadband surface emissivity", "1", "surface_longwave_emissivity"),
     Product("sky_emissivity", "effective atmospheric emissivity", "1", None),
-    Product("quality", "quality bit flags", "1", None, dtype="uint8"),
+    Product("quality", "quality bit flags", "1", None, dtype="uint8", flags=SCENE_QUALITY_BITS),
 ]}
 
 # Day products [MJ m-2 day-1].  CF treats MJ m-2 day-1 as a flux convertible to W m-2.
@@ -68,24 +91,22 @@ DAY_PRODUCTS: dict[str, Product] = {p.name: p for p in [
             diverging=True, positive="upward (loss by the surface)"),
     Product("clear_sky_shortwave", "daily clear-sky shortwave (FAO-56 Rso)", _MJ,
             "surface_downwelling_shortwave_flux_in_air_assuming_clear_sky"),
-    Product("quality", "quality bit flags", "1", None, dtype="uint8"),
+    Product("quality", "quality bit flags", "1", None, dtype="uint8", flags=DAY_QUALITY_BITS),
 ]}
 
 DEFAULT_PRODUCTS = ("net_radiation", "net_shortwave", "net_longwave", "quality")
+
+#: a scene's daily net radiation (methods.scene_to_day): its own name, so it never collides with the
+#: FAO-56 day of the same date; written as days/net_radiation_from_scene_{YYYYMMDDTHHMM}.tif
+SCENE_DAY_PRODUCT = "net_radiation_from_scene"
 ALL_PRODUCT_NAMES = tuple(dict.fromkeys(list(SCENE_PRODUCTS) + list(DAY_PRODUCTS)))
 
 #: per-pixel statistics a composite may ask for (see outputs/composites.py)
 COMPOSITE_STATISTICS = ("mean", "median", "min", "max", "sum", "std", "count", "total")
 
-QUALITY_BITS: dict[str, int] = {
-    "input_missing": 1,          # an input the pixel needs is nodata or off its footprint
-    "out_of_range": 2,           # an input value outside its physical range (set to NaN)
-    "modelled_shortwave": 4,     # shortwave_down modelled as clear sky (no shortwave grid given)
-    "cloud_corrected": 8,        # Crawford-Duchon cloud fraction 1 - Rs/Rso >= 0.1 (sky emissivity raised)
-    "emissivity_default": 16,    # land-cover class missing from the table, `unknown` value used
-    "sun_down": 32,              # sun below the horizon at the scene time
-    "shortwave_capped": 64,      # Rs/Rso > 1 capped (days) or Rs > Rs_clear (scenes)
-}
+def quality_bits(kind: TimeKind) -> dict[str, int]:
+    """The quality bit table of products of ``kind``."""
+    return SCENE_QUALITY_BITS if TimeKind(kind) is TimeKind.SCENES else DAY_QUALITY_BITS
 
 
 def product_info(name: str, kind: TimeKind) -> Product:

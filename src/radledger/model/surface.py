@@ -8,11 +8,11 @@ import numpy as np
 from .. import physics as ph
 from ..errors import UnknownClassError
 from .params import SceneParams
-from .products import QUALITY_BITS
+from .products import SCENE_QUALITY_BITS
 
 __all__ = ["chunk_emissivity", "resolve_unknown_classes", "unknown_classes_message"]
 
-B = QUALITY_BITS
+B = SCENE_QUALITY_BITS
 
 
 def unknown_classes_message(land_cover: str, table: str, classes) -> str:

@@ -33,7 +33,7 @@ import xarray as xr
 
 from ..errors import InputError
 from ..kinds import TimeKind
-from ..model.products import DAY_PRODUCTS, QUALITY_BITS, SCENE_PRODUCTS, Product, product_info
+from ..model.products import DAY_PRODUCTS, SCENE_PRODUCTS, Product, product_info
 
 __all__ = ["open_products", "product_files", "variable_attrs", "time_coords", "fill_value", "TILE"]
 
@@ -46,7 +46,8 @@ def product_files(directory: str | os.PathLike, kind: TimeKind | str) -> dict[st
     """The finished product files under ``directory/kind``: product -> {UTC time -> path}.
 
     Names follow ``{product}_{YYYYMMDDTHHMM}.tif`` (scenes) or ``{product}_{YYYYMMDD}.tif``
-    (days); files of unknown products and hidden temporaries are ignored.  Day times are
+    (days); files of other products (such as a scene's own daily estimate,
+    ``net_radiation_from_scene_{YYYYMMDDTHHMM}.tif``) and hidden temporaries are ignored.  Day times are
     00:00 UTC of the day.  Times are naive datetimes in UTC.  Products come in the order
     of the product table.
     """
@@ -86,8 +87,8 @@ def variable_attrs(product: Product, kind: TimeKind | str) -> dict:
     if product.positive:
         attrs["comment"] = f"positive = {product.positive}"
     if product.is_flags:
-        attrs["flag_masks"] = np.array(list(QUALITY_BITS.values()), dtype=product.dtype)
-        attrs["flag_meanings"] = " ".join(QUALITY_BITS)
+        attrs["flag_masks"] = np.array(list(product.flags.values()), dtype=product.dtype)
+        attrs["flag_meanings"] = " ".join(product.flags)
     else:
         attrs["cell_methods"] = "time: point" if TimeKind(kind) is TimeKind.SCENES else "time: mean"
     return attrs

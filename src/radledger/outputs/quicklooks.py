@@ -226,7 +226,7 @@ def write_quicklook(tif_path: str | os.PathLike, png_path: str | os.PathLike, *,
     zones : Zones, optional
         Polygons drawn as thin dark outlines with their ids (reprojected to the raster CRS if needed).
     categorical_bits : mapping of str to int, optional
-        Bit flags (e.g. ``products.QUALITY_BITS``): draw the raster as discrete
+        Bit flags (e.g. ``products.SCENE_QUALITY_BITS``): draw the raster as discrete
         bit combinations with a legend instead of a colour bar; nodata (the
         file's, else 255) is grey.
     max_pixels : int, optional

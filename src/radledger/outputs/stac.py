@@ -9,7 +9,8 @@ the ``stac/`` folder can move with the products.  Layout::
 
 Items are named ``scene-YYYYMMDDTHHMM`` (``datetime`` = the overpass, UTC) and
 ``day-YYYYMMDD`` (``datetime`` = 00:00 UTC, ``start_datetime``/``end_datetime`` the
-day).  Each asset is one product COG with its CF ``units`` in ``raster:bands``; the
+day).  Each asset is one product COG with its CF ``units`` in ``raster:bands`` (a
+scene's own daily estimate, ``net_radiation_from_scene``, is an asset of its scene); the
 projection extension (``proj:code`` when the CRS has an EPSG code, always
 ``proj:wkt2``; ``proj:shape``, ``proj:transform``, ``proj:bbox`` in the grid CRS) sits
 in the item's properties, as every asset shares the grid.  Roles: ``data`` for the
@@ -37,7 +38,7 @@ from .._version import __version__
 from ..errors import OutputError
 from ..grid import TargetGrid
 from ..kinds import TimeKind
-from ..model.products import QUALITY_BITS, product_info
+from ..model.products import SCENE_DAY_PRODUCT, product_info
 
 __all__ = ["DatedProducts", "write_catalog", "COLLECTION_ID"]
 
@@ -68,10 +69,13 @@ def _footprint(grid: TargetGrid) -> tuple[dict, list[float]]:
 
 
 def _add_asset(item: pystac.Item, name: str, kind: TimeKind, path: Path, resolution: float) -> None:
-    info = product_info(name, kind)
+    if name == SCENE_DAY_PRODUCT:   # a scene's own daily estimate: a day product on the scene's item
+        info = product_info("net_radiation", TimeKind.DAYS)
+    else:
+        info = product_info(name, kind)
     if info.is_flags:
         roles = ["metadata", "quality"]
-        bits = ", ".join(f"{v} {k}" for k, v in QUALITY_BITS.items())
+        bits = ", ".join(f"{v} {k}" for k, v in info.flags.items())
         description = f"uint8 bit flags ({bits}); {int(info.nodata)} = no data"
         band = RasterBand.create(data_type=DataType.UINT8, nodata=int(info.nodata), unit=info.units,
                                  spatial_resolution=resolution)

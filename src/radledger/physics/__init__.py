@@ -19,12 +19,23 @@ from .constants import (
     ZERO_CELSIUS,
 )
 from .daily import (
+    RELATIVE_SHORTWAVE_LIMITS,
     fao56_net_longwave_daily,
+    fao56_net_longwave_hourly,
     fao56_net_radiation_components_daily,
     fao56_net_radiation_daily,
     shortwave_ratio_daily_jackson_1983,
     sinusoidal_daily_bisht_2005,
 )
+from .ephemeris import (
+    sun_distance,
+    DELTA_T,
+    extraterrestrial_instant_precise,
+    julian_day,
+    michalsky_1988,
+    sun_position,
+)
+from .diurnal import PARTON_LOGAN_1981_PARAMETERS, parton_logan_1981
 from .emissivity import (
     build_lookup,
     emissivity_from_classes,
@@ -38,6 +49,7 @@ from .humidity import (
     vapour_pressure_from_relative_humidity,
 )
 from .longwave import (
+    CLEARNESS_MIN_SUN_ELEVATION,
     CLOUD_MODELS,
     SKY_EMISSIVITY_MODELS,
     brutsaert_1975,
@@ -45,6 +57,7 @@ from .longwave import (
     idso_1981,
     idso_jackson_1969,
     longwave_down,
+    low_sun,
     net_longwave,
     net_radiation_instant,
     prata_1996,
@@ -71,8 +84,6 @@ from .solar import (
     extraterrestrial_period,
     hour_angle,
     inverse_relative_distance,
-    julian_day,
-    michalsky_1988,
     seasonal_correction,
     solar_declination,
     sunrise_sunset,
@@ -101,8 +112,13 @@ __all__ = [
     "extraterrestrial_period",
     "extraterrestrial_hourly",
     "extraterrestrial_instant",
+    # precise sun at an instant
+    "DELTA_T",
     "julian_day",
     "michalsky_1988",
+    "sun_position",
+    "extraterrestrial_instant_precise",
+    "sun_distance",
     # shortwave
     "net_shortwave",
     "atmospheric_pressure",
@@ -121,6 +137,8 @@ __all__ = [
     "SKY_EMISSIVITY_MODELS",
     "sky_emissivity",
     "CLOUD_MODELS",
+    "CLEARNESS_MIN_SUN_ELEVATION",
+    "low_sun",
     "crawford_duchon_1999",
     "longwave_down",
     "net_longwave",
@@ -131,11 +149,16 @@ __all__ = [
     "vapour_pressure_from_relative_humidity",
     "mean_saturation_vapour_pressure",
     # daily
+    "RELATIVE_SHORTWAVE_LIMITS",
     "fao56_net_longwave_daily",
+    "fao56_net_longwave_hourly",
     "fao56_net_radiation_components_daily",
     "fao56_net_radiation_daily",
     "sinusoidal_daily_bisht_2005",
     "shortwave_ratio_daily_jackson_1983",
+    # diurnal air temperature
+    "PARTON_LOGAN_1981_PARAMETERS",
+    "parton_logan_1981",
     # emissivity
     "build_lookup",
     "emissivity_from_classes",

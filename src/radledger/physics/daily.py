@@ -10,7 +10,7 @@ References
 ----------
 .. [1] Allen, R. G., Pereira, L. S., Raes, D., Smith, M. (1998). Crop
    evapotranspiration. FAO Irrigation and Drainage Paper 56, FAO, Rome.
-   Eqs. 21, 37, 38, 39, 40.
+   Eqs. 21, 37, 38, 39, 40; hourly periods pp. 74-75.
 .. [2] Bisht, G., Venturini, V., Islam, S., Jiang, L. (2005). Estimation of the
    net radiation using MODIS (Moderate Resolution Imaging Spectroradiometer)
    data for clear sky days. Remote Sensing of Environment 97(1), 52-67.
@@ -19,18 +19,23 @@ References
    Pinter, P. J. (1983). Estimation of daily evapotranspiration from one
    time-of-day measurements. Agricultural Water Management 7(1-3), 351-362.
    https://doi.org/10.1016/0378-3774(83)90095-1
+.. [4] ASCE-EWRI (2005). The ASCE standardized reference evapotranspiration
+   equation. ASCE, Reston VA.  Cloudiness function f_cd with
+   0.3 <= R_s/R_so <= 1.0 (eq. 18; equation number from memory).
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from .constants import STEFAN_BOLTZMANN_DAILY, _where
+from .constants import STEFAN_BOLTZMANN_DAILY, _clip, _where
 from .shortwave import clear_sky_shortwave_fao56, net_shortwave
 from .solar import extraterrestrial_daily
 
 __all__ = [
+    "RELATIVE_SHORTWAVE_LIMITS",
     "fao56_net_longwave_daily",
+    "fao56_net_longwave_hourly",
     "fao56_net_radiation_components_daily",
     "fao56_net_radiation_daily",
     "sinusoidal_daily_bisht_2005",
@@ -41,17 +46,34 @@ _SECONDS_PER_HOUR = 3600.0
 _MJ_PER_J = 1e-6
 
 
+#: Limits of the relative shortwave R_s / R_so in the cloudiness factor of
+#: FAO-56 eq. 39 [1].  FAO-56 limits the ratio to at most 1.0 and notes (p. 75)
+#: that "a value of R_s/R_so = 0.3 presumes total cloud cover"; ASCE-EWRI
+#: (2005) holds it within 0.3..1.0 for its cloudiness function f_cd [4].
+#: Below 0.26 the factor 1.35 R_s/R_so - 0.35 would turn negative, i.e. a
+#: longwave gain.
+RELATIVE_SHORTWAVE_LIMITS = (0.3, 1.0)
+
+
+def _cloudiness_factor(ratio):
+    low, high = RELATIVE_SHORTWAVE_LIMITS
+    return 1.35 * _clip(ratio, low, high) - 0.35
+
+
 def fao56_net_longwave_daily(tmax, tmin, vapour_pressure, shortwave_down, clear_sky_shortwave):
     """Net outgoing longwave radiation of a day, FAO-56 eq. 39.
 
     ``R_nl = sigma (Tmax^4 + Tmin^4) / 2 (0.34 - 0.14 sqrt(e_a))
-    (1.35 R_s / R_so - 0.35)`` with sigma = 4.903e-9 MJ K-4 m-2 day-1 and
-    ``R_s / R_so`` limited to at most 1.  Where ``R_so`` is zero (polar
-    night) the ratio is taken as 1, so no division by zero happens.
+    (1.35 R_s / R_so - 0.35)`` with sigma = 4.903e-9 MJ K-4 m-2 day-1.
+    ``R_s / R_so`` is held within 0.3..1.0 (:data:`RELATIVE_SHORTWAVE_LIMITS`):
+    FAO-56 limits it to at most 1; the lower limit 0.3 is ASCE-EWRI (2005)'s
+    for its cloudiness function f_cd and the value FAO-56 (p. 75) gives for
+    total cloud cover.  Without it an overcast day (ratio below 0.26) would
+    get a negative cloudiness factor, i.e. a longwave *gain*.  Where ``R_so``
+    is zero (polar night) the ratio is taken as 1, so no division by zero
+    happens.
 
-    For an hourly period pass the hour's mean temperature as both ``tmax``
-    and ``tmin`` and divide the result by 24 (FAO-56 p. 74,
-    sigma = 2.043e-10 MJ K-4 m-2 hour-1).
+    For hourly periods use :func:`fao56_net_longwave_hourly`.
 
     Parameters
     ----------
@@ -73,7 +95,6 @@ def fao56_net_longwave_daily(tmax, tmin, vapour_pressure, shortwave_down, clear_
     """
     sunlit = clear_sky_shortwave > 0.0
     ratio = _where(sunlit, shortwave_down / _where(sunlit, clear_sky_shortwave, 1.0), 1.0)
-    ratio = np.minimum(ratio, 1.0)
     tmax2 = tmax * tmax
     tmin2 = tmin * tmin
     return (
@@ -81,7 +102,59 @@ def fao56_net_longwave_daily(tmax, tmin, vapour_pressure, shortwave_down, clear_
         * 0.5
         * (tmax2 * tmax2 + tmin2 * tmin2)
         * (0.34 - 0.14 * np.sqrt(vapour_pressure))
-        * (1.35 * ratio - 0.35)
+        * _cloudiness_factor(ratio)
+    )
+
+
+def fao56_net_longwave_hourly(
+    temperature, vapour_pressure, shortwave_down, clear_sky_shortwave, night_ratio=None
+):
+    """Net outgoing longwave radiation of an hour (or shorter period), FAO-56 eq. 39.
+
+    FAO-56 (pp. 74-75) applies eq. 39 to hourly periods with
+    ``sigma T_hr^4`` in place of the mean of ``Tmax^4`` and ``Tmin^4`` and
+    sigma = 4.903e-9 / 24 = 2.043e-10 MJ K-4 m-2 hour-1:
+    ``R_nl = sigma T^4 (0.34 - 0.14 sqrt(e_a)) (1.35 R_s / R_so - 0.35)``.
+    The ratio is held within 0.3..1.0 as in :func:`fao56_net_longwave_daily`.
+
+    At night (``R_so`` zero) R_s / R_so says nothing about cloud; FAO-56 sets
+    it to the ratio of a period 2-3 hours before sunset, "before the sun angle
+    becomes small" (the hour with ``omega_s - 0.79 <= omega <= omega_s - 0.52``),
+    or, more roughly, to 0.4-0.6 in humid and sub-humid and 0.7-0.8 in arid
+    and semi-arid climates (0.3 presumes total cloud cover).  The caller
+    passes that value as ``night_ratio``; FAO-56 Example 19 assumes 0.8.  For
+    a period shorter than an hour multiply the result by its length in hours.
+
+    Parameters
+    ----------
+    temperature : float or array_like
+        Mean air temperature of the hour [K].
+    vapour_pressure : float or array_like
+        Mean actual vapour pressure of the hour (eq. 54) [kPa].
+    shortwave_down : float or array_like
+        Incoming shortwave radiation of the hour [MJ m-2 hour-1].
+    clear_sky_shortwave : float or array_like
+        Clear-sky shortwave of the hour (eq. 37 with the hourly R_a of
+        eq. 28) [MJ m-2 hour-1].
+    night_ratio : float or array_like, optional
+        R_s / R_so to use where ``clear_sky_shortwave`` is zero; without it
+        the result is NaN there [1].
+
+    Returns
+    -------
+    R_nl : float or array
+        Net outgoing longwave radiation, positive = loss [MJ m-2 hour-1].
+    """
+    sunlit = clear_sky_shortwave > 0.0
+    night = np.nan if night_ratio is None else night_ratio
+    ratio = _where(sunlit, shortwave_down / _where(sunlit, clear_sky_shortwave, 1.0), night)
+    t2 = temperature * temperature
+    return (
+        STEFAN_BOLTZMANN_DAILY
+        / 24.0
+        * (t2 * t2)
+        * (0.34 - 0.14 * np.sqrt(vapour_pressure))
+        * _cloudiness_factor(ratio)
     )
 
 

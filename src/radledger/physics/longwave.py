@@ -63,6 +63,8 @@ __all__ = [
     "SKY_EMISSIVITY_MODELS",
     "sky_emissivity",
     "CLOUD_MODELS",
+    "CLEARNESS_MIN_SUN_ELEVATION",
+    "low_sun",
     "crawford_duchon_1999",
     "longwave_down",
     "net_longwave",
@@ -281,8 +283,48 @@ def sky_emissivity(air_temperature, vapour_pressure, model="brutsaert"):
 #: Names accepted for the cloud correction (``methods.clouds``).
 CLOUD_MODELS = ("none", "crawford-duchon")
 
+#: Sun elevation below which the solar clearness R_s / R_so is not used for
+#: clouds [deg].  At a low sun the measured shortwave is small, dominated by
+#: diffuse light, terrain and sensor cosine errors, and the clear-sky model
+#: is least reliable, so the ratio says little about cloud; 10 deg is common
+#: practice.  ASCE-EWRI (2005) uses the ratio only while the sun is above
+#: 0.3 rad (about 17 deg) for its hourly cloudiness function and FAO-56
+#: (p. 75) takes it from a period 2-3 hours before sunset, "before the sun
+#: angle becomes small" (ASCE-EWRI threshold from memory).
+CLEARNESS_MIN_SUN_ELEVATION = 10.0
 
-def crawford_duchon_1999(clear_sky_emissivity, shortwave_down, clear_sky_shortwave):
+
+def low_sun(sun_elevation, min_sun_elevation=CLEARNESS_MIN_SUN_ELEVATION):
+    """Where the sun is too low for a cloud fraction from R_s / R_so.
+
+    The pixels :func:`crawford_duchon_1999` leaves at clear-sky emissivity
+    when given ``sun_elevation``, for a quality flag.
+
+    Parameters
+    ----------
+    sun_elevation : float or array_like
+        Sun elevation angle above the horizon, 90 minus the zenith angle
+        (negative at night) [deg].
+    min_sun_elevation : float or array_like, optional
+        The cut-off, see :data:`CLEARNESS_MIN_SUN_ELEVATION` [deg].
+
+    Returns
+    -------
+    mask : bool or boolean array
+        True where ``sun_elevation < min_sun_elevation`` (night included);
+        False where it is NaN [1].
+    """
+    return sun_elevation < min_sun_elevation
+
+
+def crawford_duchon_1999(
+    clear_sky_emissivity,
+    shortwave_down,
+    clear_sky_shortwave,
+    *,
+    sun_elevation=None,
+    min_sun_elevation=CLEARNESS_MIN_SUN_ELEVATION,
+):
     """All-sky emissivity from the solar clearness, Crawford & Duchon (1999) [7].
 
     ``eps = c + (1 - c) eps_clear`` with the cloud fraction
@@ -290,6 +332,12 @@ def crawford_duchon_1999(clear_sky_emissivity, shortwave_down, clear_sky_shortwa
     s = R_s / R_so).  Daytime only: where the clear-sky shortwave is zero or
     missing (night) the cloud fraction is unknown and the result is NaN; the
     caller decides what to use there.
+
+    With ``sun_elevation`` given, the correction is skipped where the sun is
+    below ``min_sun_elevation`` (night included): the result there is
+    ``eps_clear``, not NaN.  A low sun makes ``R_s / R_so`` meaningless (see
+    :data:`CLEARNESS_MIN_SUN_ELEVATION`); flag those pixels with
+    :func:`low_sun`.  Without ``sun_elevation`` no cut-off is applied.
 
     Parameters
     ----------
@@ -300,17 +348,26 @@ def crawford_duchon_1999(clear_sky_emissivity, shortwave_down, clear_sky_shortwa
     clear_sky_shortwave : float or array_like
         Clear-sky incoming shortwave for the same time and place, same units
         as ``shortwave_down`` [W m-2].
+    sun_elevation : float or array_like, optional
+        Sun elevation angle for the same time and place, 90 minus the zenith
+        angle (e.g. from :func:`radledger.physics.ephemeris.sun_position`)
+        [deg].
+    min_sun_elevation : float or array_like, optional
+        Cut-off for ``sun_elevation``; 10 deg is common practice [deg].
 
     Returns
     -------
     eps_all : float or array
         All-sky effective emissivity, between ``eps_clear`` and 1 [1]; NaN
-        where ``clear_sky_shortwave <= 0``.
+        where ``clear_sky_shortwave <= 0`` unless the cut-off applies there.
     """
     daytime = clear_sky_shortwave > 0.0
     ratio = shortwave_down / _where(daytime, clear_sky_shortwave, 1.0)
     cloud = _clip(1.0 - ratio, 0.0, 1.0)
-    return _where(daytime, cloud + (1.0 - cloud) * clear_sky_emissivity, np.nan)
+    eps = _where(daytime, cloud + (1.0 - cloud) * clear_sky_emissivity, np.nan)
+    if sun_elevation is None:
+        return eps
+    return _where(low_sun(sun_elevation, min_sun_elevation), clear_sky_emissivity, eps)
 
 
 def longwave_down(sky_emissivity, air_temperature):

@@ -25,6 +25,7 @@ __all__ = [
     "atmospheric_pressure",
     "clear_sky_shortwave_fao56",
     "precipitable_water",
+    "clear_sky_beam_diffuse_indices",
     "clear_sky_shortwave_beam_diffuse",
     "BEAM_DIFFUSE_COEFFICIENTS",
 ]
@@ -122,6 +123,61 @@ BEAM_DIFFUSE_COEFFICIENTS = {
 _MIN_SIN_ELEVATION = 0.01
 
 
+def clear_sky_beam_diffuse_indices(
+    cos_zenith,
+    pressure,
+    precipitable_water,
+    turbidity=1.0,
+    *,
+    coefficients="asce-ewri-2005",
+):
+    """Beam and diffuse clear-sky indices K_B and K_D (FAO-56 Annex 3 / ASCE-EWRI D).
+
+    ``K_B = 0.98 exp(-a P / (K_t sin(beta)) - b (W / sin(beta)) ** c)``
+    (FAO-56 eq. 3-18, ASCE-EWRI eq. D.2) and ``K_D = d - e K_B`` for
+    ``K_B >= 0.15``, ``K_D = 0.18 + 0.82 K_B`` for ``K_B < 0.15`` (FAO-56
+    eq. 3-20, ASCE-EWRI eq. D.4).  Both are zero wherever the sun is at or
+    below the horizon.  ``K_B R_a`` is the clear-sky beam and ``K_D R_a`` the
+    clear-sky diffuse radiation on a horizontal surface.
+
+    Parameters
+    ----------
+    cos_zenith : float or array_like
+        Sine of the sun's elevation beta, i.e. cosine of the zenith angle, at
+        the instant or the period's midpoint [1].
+    pressure : float or array_like
+        Atmospheric pressure P [kPa].
+    precipitable_water : float or array_like
+        Precipitable water W (see :func:`precipitable_water`) [mm].
+    turbidity : float or array_like, optional
+        Turbidity coefficient K_t, 0 < K_t <= 1; 1.0 for clean air, about 0.5
+        for extremely turbid, dusty or polluted air [1].
+    coefficients : {"asce-ewri-2005", "fao56"}, optional
+        Which published set of coefficients a..e to use; see
+        :data:`BEAM_DIFFUSE_COEFFICIENTS`.
+
+    Returns
+    -------
+    k_beam, k_diffuse : tuple of float or array
+        Beam index K_B [1] and diffuse index K_D [1].
+    """
+    try:
+        c = BEAM_DIFFUSE_COEFFICIENTS[coefficients]
+    except (KeyError, TypeError):
+        valid = ", ".join(BEAM_DIFFUSE_COEFFICIENTS)
+        raise ValueError(
+            f"unknown beam/diffuse coefficients {coefficients!r}; use one of: {valid}"
+        ) from None
+    sin_beta = np.maximum(cos_zenith, _MIN_SIN_ELEVATION)
+    k_beam = 0.98 * np.exp(
+        -c["a"] * pressure / (turbidity * sin_beta)
+        - c["b"] * (precipitable_water / sin_beta) ** c["c"]
+    )
+    k_diffuse = _where(k_beam >= 0.15, c["d"] - c["e"] * k_beam, 0.18 + 0.82 * k_beam)
+    sun_up = cos_zenith > 0.0
+    return _where(sun_up, k_beam, 0.0), _where(sun_up, k_diffuse, 0.0)
+
+
 def clear_sky_shortwave_beam_diffuse(
     extraterrestrial,
     cos_zenith,
@@ -133,10 +189,9 @@ def clear_sky_shortwave_beam_diffuse(
 ):
     """Clear-sky shortwave from a beam and a diffuse index (FAO-56 Annex 3 / ASCE-EWRI D).
 
-    ``R_so = (K_B + K_D) R_a`` with
-    ``K_B = 0.98 exp(-a P / (K_t sin(beta)) - b (W / sin(beta)) ** c)`` and
-    ``K_D = 0.35 - e K_B`` for ``K_B >= 0.15``, ``K_D = 0.18 + 0.82 K_B`` for
-    ``K_B < 0.15``.  Zero wherever the sun is at or below the horizon.
+    ``R_so = (K_B + K_D) R_a`` (FAO-56 eq. 3-17, ASCE-EWRI eq. D.1) with the
+    indices K_B and K_D of :func:`clear_sky_beam_diffuse_indices`.  Zero
+    wherever the sun is at or below the horizon.
 
     Parameters
     ----------
@@ -162,18 +217,8 @@ def clear_sky_shortwave_beam_diffuse(
     R_so : float or array
         Clear-sky shortwave radiation, in the units of ``extraterrestrial``.
     """
-    try:
-        c = BEAM_DIFFUSE_COEFFICIENTS[coefficients]
-    except (KeyError, TypeError):
-        valid = ", ".join(BEAM_DIFFUSE_COEFFICIENTS)
-        raise ValueError(
-            f"unknown beam/diffuse coefficients {coefficients!r}; use one of: {valid}"
-        ) from None
-    sin_beta = np.maximum(cos_zenith, _MIN_SIN_ELEVATION)
-    k_beam = 0.98 * np.exp(
-        -c["a"] * pressure / (turbidity * sin_beta)
-        - c["b"] * (precipitable_water / sin_beta) ** c["c"]
+    k_beam, k_diffuse = clear_sky_beam_diffuse_indices(
+        cos_zenith, pressure, precipitable_water, turbidity, coefficients=coefficients
     )
-    k_diffuse = _where(k_beam >= 0.15, c["d"] - c["e"] * k_beam, 0.18 + 0.82 * k_beam)
     sun_up = cos_zenith > 0.0
     return _where(sun_up, (k_beam + k_diffuse) * extraterrestrial, 0.0)

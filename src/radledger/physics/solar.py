@@ -6,12 +6,12 @@ function accepts Python floats, NumPy, Dask or xarray arrays and returns the
 same kind (broadcasting as NumPy does).
 
 The FAO-56 functions follow Allen et al. (1998) [1] exactly.  Their
-declination (eq. 24) and seasonal correction (eq. 32) are approximations good
-to about a degree of sun angle, which is what FAO-56 and ASCE-EWRI (2005) [2]
-intend for daily and hourly totals.  Where a scene needs the sun's position at
-one instant to a few hundredths of a degree, :func:`michalsky_1988` gives the
-declination and hour angle from the Astronomical Almanac's algorithm [3]; both
-feed :func:`cos_zenith` alike.
+declination (eq. 24) and seasonal correction (eq. 32) are approximations: at
+an instant the sun's zenith angle from them is off by up to about 1.5 deg
+(measured against NREL's SPA in the test suite), which is what FAO-56 and
+ASCE-EWRI (2005) [2] accept for daily and hourly totals.  For the sun's
+position at one instant (a satellite scene) use
+:func:`radledger.physics.ephemeris.sun_position` instead.
 
 References
 ----------
@@ -22,9 +22,6 @@ References
    equation. Report of the Task Committee on Standardization of Reference
    Evapotranspiration, ASCE, Reston VA.  Eq. 48 (hourly Ra) and eq. 62
    (sun elevation), numbers as cited by the open-source RefET package.
-.. [3] Michalsky, J. J. (1988). The Astronomical Almanac's algorithm for
-   approximate solar position (1950-2050). Solar Energy 40(3), 227-235.
-   https://doi.org/10.1016/0038-092X(88)90045-X
 """
 
 from __future__ import annotations
@@ -49,8 +46,6 @@ __all__ = [
     "extraterrestrial_period",
     "extraterrestrial_hourly",
     "extraterrestrial_instant",
-    "julian_day",
-    "michalsky_1988",
 ]
 
 _TWO_PI = 2.0 * np.pi
@@ -85,16 +80,7 @@ def day_of_year(value) -> int:
         year_start = days.astype("datetime64[Y]").astype("datetime64[D]")
         return int((days - year_start).astype(int)) + 1
     if isinstance(value, str):
-        text = value.strip()
-        if text.endswith(("Z", "z")):
-            text = text[:-1] + "+00:00"
-        try:
-            value = _dt.datetime.fromisoformat(text)
-        except ValueError:
-            raise ValueError(
-                f"cannot read {value!r} as an ISO 8601 date such as 2026-07-14 "
-                "or 2026-07-14T18:10:00Z"
-            ) from None
+        value = _parse_iso(value)
     if isinstance(value, _dt.datetime):
         if value.tzinfo is not None and value.utcoffset() is not None:
             value = value.astimezone(_dt.timezone.utc)
@@ -105,6 +91,20 @@ def day_of_year(value) -> int:
         "day_of_year needs a date, datetime, datetime64, ISO string or int, "
         f"not {type(value).__name__}"
     )
+
+
+def _parse_iso(value: str) -> _dt.datetime:
+    """An ISO 8601 date or date-time string (``Z`` accepted for UTC)."""
+    text = value.strip()
+    if text.endswith(("Z", "z")):
+        text = text[:-1] + "+00:00"
+    try:
+        return _dt.datetime.fromisoformat(text)
+    except ValueError:
+        raise ValueError(
+            f"cannot read {value!r} as an ISO 8601 date such as 2026-07-14 "
+            "or 2026-07-14T18:10:00Z"
+        ) from None
 
 
 def inverse_relative_distance(day_of_year):
@@ -401,7 +401,9 @@ def extraterrestrial_instant(latitude, longitude, day_of_year, utc_hour):
 
     ``G_sc d_r max(cos(theta_z), 0)`` with the FAO-56 solar constant in W m-2
     (0.0820 MJ m-2 min-1 = 1366.7 W m-2), d_r from eq. 23 and the sun angle
-    from eqs. 24 and 31.  Its integral over a day is eq. 21.
+    from eqs. 24 and 31.  Its integral over a day is eq. 21.  For a scene's
+    instant use :func:`radledger.physics.ephemeris.extraterrestrial_instant_precise`
+    (the sun from NREL's SPA; FAO-56's sun angle is up to about 1.5 deg off).
 
     Parameters
     ----------
@@ -423,72 +425,3 @@ def extraterrestrial_instant(latitude, longitude, day_of_year, utc_hour):
     omega = hour_angle(utc_hour, longitude, day_of_year)
     mu = cos_zenith(latitude, delta, omega)
     return SOLAR_CONSTANT_W * inverse_relative_distance(day_of_year) * np.maximum(mu, 0.0)
-
-
-def julian_day(year, day_of_year, utc_hour):
-    """Julian date (UTC) of a year, day of year and hour (Gregorian calendar).
-
-    Parameters
-    ----------
-    year : int or array_like
-        Calendar year [1].
-    day_of_year : int or array_like
-        Day of the year, 1 = 1 January [1].
-    utc_hour : float or array_like
-        UTC decimal hours [hour].
-
-    Returns
-    -------
-    jd : float or array
-        Julian date; 2451545.0 is 2000-01-01 12:00 [day].
-    """
-    y = year - 1
-    # Days from 0001-01-01 (JD 1721425.5 at 0 h, proleptic Gregorian) to
-    # 1 January of `year`, by the Gregorian leap-year rule.
-    leap_days = np.floor_divide(y, 4) - np.floor_divide(y, 100) + np.floor_divide(y, 400)
-    days_before = 365 * y + leap_days
-    return 1721425.5 + days_before + (day_of_year - 1) + utc_hour / 24.0
-
-
-def michalsky_1988(year, day_of_year, utc_hour, longitude):
-    """Solar declination and hour angle by the Astronomical Almanac's algorithm.
-
-    Low-precision solar coordinates of the Astronomical Almanac as set out by
-    Michalsky (1988) [3], stated there to be good to 0.01 deg for 1950-2050.
-    The coefficients below are from memory of that paper; the test suite
-    checks the resulting zenith angle against astropy.
-
-    Parameters
-    ----------
-    year : int or array_like
-        Calendar year [1].
-    day_of_year : int or array_like
-        Day of the year, 1 = 1 January [1].
-    utc_hour : float or array_like
-        UTC decimal hours [hour].
-    longitude : float or array_like
-        Longitude, east positive [deg].
-
-    Returns
-    -------
-    declination, hour_angle : tuple of float or array
-        Solar declination [rad] and local hour angle wrapped to [-pi, pi)
-        [rad], ready for :func:`cos_zenith`.
-    """
-    n = julian_day(year, day_of_year, utc_hour) - 2451545.0
-    mean_longitude = np.radians(np.mod(280.460 + 0.9856474 * n, 360.0))
-    mean_anomaly = np.radians(np.mod(357.528 + 0.9856003 * n, 360.0))
-    ecliptic_longitude = (
-        mean_longitude
-        + np.radians(1.915) * np.sin(mean_anomaly)
-        + np.radians(0.020) * np.sin(2.0 * mean_anomaly)
-    )
-    obliquity = np.radians(23.439 - 0.0000004 * n)
-    right_ascension = np.arctan2(
-        np.cos(obliquity) * np.sin(ecliptic_longitude), np.cos(ecliptic_longitude)
-    )
-    declination = np.arcsin(np.sin(obliquity) * np.sin(ecliptic_longitude))
-    # Greenwich mean sidereal time in hours; n already holds the hour's fraction.
-    gmst = np.mod(6.697375 + 0.0657098242 * n + utc_hour, 24.0)
-    local_hour_angle = np.radians(gmst * 15.0 + longitude) - right_ascension
-    return declination, _wrap_angle(local_hour_angle)

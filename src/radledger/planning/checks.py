@@ -63,9 +63,15 @@ def check_sample(src: LayerSource, *, kind: TimeKind = TimeKind.SCENES) -> None:
         if med < 0:
             raise UnitError(f"{where}: median {med:.4g} is negative; shortwave cannot be negative - check "
                             f"layers.shortwave_down scale/offset/nodata")
-        if kind is TimeKind.DAYS and med > 45:
-            raise UnitError(f"{where}: median {med:.4g} MJ m-2 day-1 exceeds extraterrestrial radiation; "
-                            f"day shortwave must be a daily total in MJ m-2 day-1 (W m-2 x 0.0864)")
+        daylight = src.units == "W m-2 daylight"
+        if kind is TimeKind.DAYS and not daylight and med > 45:
+            raise UnitError(f"{where}: median {med:.4g} MJ m-2 day-1 (declared {src.units}) exceeds any daily "
+                            f"extraterrestrial radiation; if the values are W m-2, say which mean they are: "
+                            f"'W m-2 daylight' (layers.shortwave_down.units) for a mean over the daylight "
+                            f"hours, or units 'W m-2' on the day's input itself for a 24-hour mean")
+        if kind is TimeKind.DAYS and daylight and med > 1500:
+            raise UnitError(f"{where}: median {med:.4g} W m-2 (declared a daylight mean) exceeds the solar "
+                            f"constant; check layers.shortwave_down scale/offset/units")
         if kind is TimeKind.SCENES and med > 1500:
             raise UnitError(f"{where}: median {med:.4g} W m-2 exceeds the solar constant; check "
                             f"layers.shortwave_down scale/offset")

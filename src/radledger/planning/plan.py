@@ -16,7 +16,7 @@ import numpy as np
 
 from .._version import __version__
 from ..config import Config
-from ..errors import ConfigError, GridError, InputError, Problems, RadledgerError
+from ..errors import GridError, InputError, Problems, RadledgerError
 from ..grid import TargetGrid
 from ..io.gdalenv import gdal_env
 from ..io.paths import gdal_path
@@ -24,8 +24,9 @@ from ..io.rasters import LayerSource, check_overlap, open_dataset
 from ..io.tables import read_emissivity_table
 from ..io.vectors import read_zones
 from ..kinds import TimeKind
+from ..model.needs import day_needs, scene_needs
 from ..model.params import DayParams, SceneParams
-from ..model.products import DAY_PRODUCTS, SCENE_PRODUCTS
+from ..model.products import DAY_PRODUCTS, SCENE_DAY_PRODUCT, SCENE_PRODUCTS
 from ..model.surface import unknown_classes_message
 from ..physics.emissivity import build_lookup, missing_classes
 from .checks import check_sample, land_cover_classes, output_problems
@@ -45,8 +46,8 @@ class Job:
     params: SceneParams | DayParams
     outputs: dict[str, Path]           # product -> final path
     settings_hash: str
-    needs_lonlat: bool = True
     day_output: Path | None = None     # scene -> day product (methods.scene_to_day)
+    notes: tuple[str, ...] = ()        # what the user should know about this job (check, run summary)
 
     @property
     def day(self) -> dt.date:
@@ -57,7 +58,7 @@ class Job:
         """Every product of the job and its final path (a scene's day product included)."""
         targets = dict(self.outputs)
         if self.day_output is not None:
-            targets["daily_net_radiation"] = self.day_output
+            targets[SCENE_DAY_PRODUCT] = self.day_output
         return targets
 
 
@@ -81,6 +82,10 @@ class Plan:
         n_products += sum(len(c.statistics) for c in self.cfg.composites)
         # float32 COG ~ 0.75 x raw after ZSTD + 1/3 overviews; plus one raw intermediate in flight
         return int(px * 4 * (n_products * 1.0 + len(self.cfg.output.products)))
+
+
+DEFAULT_ALBEDO_NOTE = ("no albedo: FAO-56's grass reference 0.23 used everywhere (flagged albedo_default; "
+                       "wrong over snow, water and forest)")
 
 
 def unknown_classes_error(cfg: Config, classes) -> InputError:
@@ -150,20 +155,18 @@ def make_plan(cfg: Config, *, inspect_inputs: bool = True, force: bool = False,
     products = cfg.output.products
     out = cfg.output.directory
     methods = cfg.methods
-    common = [__version__, grid.describe(), cfg.output.compression]
+    common = [__version__, grid.identity, cfg.output.compression]
     for scene in cfg.scenes:
-        srcs = {k: source(k, p, TimeKind.SCENES) for k, p in scene.layers.items()
-                if not (k == "land_cover" and cfg.emissivity.constant is not None)}
+        want = tuple(p for p in products if p in SCENE_PRODUCTS)
+        needs = scene_needs(scene.layers, products=want, sky_emissivity=methods.sky_emissivity,
+                            clouds=methods.clouds, scene_to_day=methods.scene_to_day,
+                            emissivity_constant=cfg.emissivity.constant is not None)
+        srcs = {k: source(k, scene.layers[k], TimeKind.SCENES) for k in needs.layers}
         if any(v is None for v in srcs.values()):
             continue
-        want = tuple(p for p in products if p in SCENE_PRODUCTS)
-        needs_lonlat = ("shortwave_down" not in srcs or methods.clouds != "none"
-                        or "quality" in want or methods.scene_to_day != "none")
-        if needs_lonlat and "elevation" not in srcs:
-            srcs.pop("elevation", None)
-        params = SceneParams(time=scene.time, products=want + (("daily_net_radiation",) if
+        params = SceneParams(time=scene.time, products=want + ((SCENE_DAY_PRODUCT,) if
                                                              methods.scene_to_day != "none" else ()),
-                             sky_emissivity=methods.sky_emissivity, clouds=methods.clouds,
+                             needs=needs, sky_emissivity=methods.sky_emissivity, clouds=methods.clouds,
                              clear_sky_shortwave=methods.clear_sky_shortwave, emissivity_lut=lut,
                              emissivity_constant=cfg.emissivity.constant, emissivity_unknown=unknown,
                              land_cover_path=cfg.static.get("land_cover", ""),
@@ -174,22 +177,21 @@ def make_plan(cfg: Config, *, inspect_inputs: bool = True, force: bool = False,
         outputs = {p: out / "scenes" / f"{p}_{scene.stamp}.tif" for p in want}
         day_output = None
         if methods.scene_to_day != "none":
-            day_output = out / "days" / f"net_radiation_{scene.time.strftime('%Y%m%d')}.tif"
-            if any(d.date == scene.time.date() for d in cfg.days):
-                problems.append(ConfigError(
-                    f"{cfg.path}: {scene.key}: methods.scene_to_day would write {day_output.name}, which "
-                    f"the days: entry of {scene.time.date()} also writes; drop one of them"))
+            day_output = out / "days" / f"{SCENE_DAY_PRODUCT}_{scene.stamp}.tif"
         plan.jobs.append(Job(TimeKind.SCENES, scene.stamp, scene.time, srcs, params, outputs, h,
-                             needs_lonlat=needs_lonlat, day_output=day_output))
+                             day_output=day_output))
     for day in cfg.days:
-        srcs = {k: source(k, p, TimeKind.DAYS) for k, p in day.layers.items() if k != "land_cover"}
+        want = tuple(p for p in products if p in DAY_PRODUCTS)
+        needs = day_needs(day.layers, products=want)
+        srcs = {k: source(k, day.layers[k], TimeKind.DAYS) for k in needs.layers}
         if any(v is None for v in srcs.values()):
             continue
-        want = tuple(p for p in products if p in DAY_PRODUCTS)
-        params = DayParams(date=day.date, products=want)
+        params = DayParams(date=day.date, products=want, needs=needs,
+                           shortwave_daylight_mean=srcs["shortwave_down"].units == "W m-2 daylight")
         h = settings_hash(common, sources_fingerprint(srcs), repr(params))
         outputs = {p: out / "days" / f"{p}_{day.stamp}.tif" for p in want}
-        plan.jobs.append(Job(TimeKind.DAYS, day.stamp, day.date, srcs, params, outputs, h))
+        notes = () if "albedo" in srcs else (DEFAULT_ALBEDO_NOTE,)
+        plan.jobs.append(Job(TimeKind.DAYS, day.stamp, day.date, srcs, params, outputs, h, notes=notes))
 
     if cfg.zones is not None and inspect_inputs:
         try:

@@ -16,7 +16,7 @@ from .._version import __version__
 from ..config import CompositeSpec, Config
 from ..io.rasters import LayerSource
 from ..kinds import TimeKind
-from ..model.products import QUALITY_BITS, Product, product_info
+from ..model.products import SCENE_DAY_PRODUCT, Product, product_info
 
 __all__ = ["file_fingerprint", "sources_fingerprint", "settings_hash", "product_tags", "job_product_tags",
            "composite_tags"]
@@ -57,8 +57,8 @@ def product_tags(product: Product, *, quantity: str | None = None, method: str, 
         "created": dt.datetime.now(dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"),
     }
     if product.is_flags:
-        tags["flag_masks"] = " ".join(str(v) for v in QUALITY_BITS.values())
-        tags["flag_meanings"] = " ".join(QUALITY_BITS)
+        tags["flag_masks"] = " ".join(str(v) for v in product.flags.values())
+        tags["flag_meanings"] = " ".join(product.flags)
     if extra:
         tags.update(extra)
     return tags
@@ -75,10 +75,10 @@ DAY_METHOD = "FAO-56 (Allen et al. 1998) eqs 21, 37, 38, 39, 40; 24-hour total"
 
 
 def job_product_tags(cfg: Config, job, name: str) -> dict[str, str]:
-    """Tags of product ``name`` of a scene or day job (``daily_net_radiation``: a scene's day product)."""
+    """Tags of product ``name`` of a scene or day job (``net_radiation_from_scene``: a scene's day product)."""
     inputs = "; ".join(f"{k}={s.path}" for k, s in sorted(job.sources.items()))
     common = dict(title=cfg.title, inputs=inputs, settings_hash=job.settings_hash)
-    if name == "daily_net_radiation":
+    if name == SCENE_DAY_PRODUCT:
         total = "daytime total" if cfg.methods.scene_to_day == "sinusoidal" else "24-hour total"
         return product_tags(product_info("net_radiation", TimeKind.DAYS), quantity=name,
                             method=f"scene to day: {cfg.methods.scene_to_day} ({total}) from the "
@@ -87,10 +87,12 @@ def job_product_tags(cfg: Config, job, name: str) -> dict[str, str]:
                             extra={"daily_total": total}, **common)
     product = product_info(name, job.kind)
     if job.kind is TimeKind.SCENES:
+        extra = {"notes": " | ".join(job.notes)} if job.notes else None
         return product_tags(product, method=_scene_method(cfg), time=job.when.strftime("%Y-%m-%dT%H:%M:%SZ"),
-                            time_kind=str(job.kind), **common)
+                            time_kind=str(job.kind), extra=extra, **common)
+    extra = {"notes": " | ".join(job.notes)} if job.notes else None
     return product_tags(product, method=DAY_METHOD, time=job.when.isoformat(), time_kind=str(job.kind),
-                        **common)
+                        extra=extra, **common)
 
 
 def composite_tags(cfg: Config, comp: CompositeSpec, statistic: str, members: list, settings_hash: str

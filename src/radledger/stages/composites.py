@@ -23,7 +23,7 @@ def run_composite(plan: Plan, comp: CompositeSpec, engine: Engine, *, overwrite:
                   ) -> tuple[list[Path], list[Path]]:
     """Write the statistics of ``comp`` that are not current; (written, skipped)."""
     members = net_radiation_files(plan, comp.source, comp.start, comp.end)
-    h = settings_hash(__version__, plan.grid.describe(), repr(comp), plan.cfg.output.compression,
+    h = settings_hash(__version__, plan.grid.identity, repr(comp), plan.cfg.output.compression,
                       [(str(p), read_tags(p).get("settings_hash")) for _, p in members])
     targets = composite_paths(plan, comp)
     todo = {s: p for s, p in targets.items() if overwrite or not is_current(p, h)}

@@ -7,7 +7,7 @@ from pathlib import Path
 
 from .._version import __version__
 from ..kinds import TimeKind
-from ..model.products import QUALITY_BITS, product_info
+from ..model.products import product_info
 from ..outputs.netcdf import write_stack
 from ..planning.plan import Plan
 from .products import dated_products
@@ -31,7 +31,7 @@ def run_netcdf(plan: Plan) -> list[Path]:
             out.parent.mkdir(parents=True, exist_ok=True)
             write_stack([str(p) for _, p in items], times, out, grid=plan.grid, product=info,
                         cell_methods=cell, time_bounds=bounds,
-                        flags=QUALITY_BITS if info.is_flags else None,
+                        flags=info.flags,
                         attrs={"title": plan.cfg.title, "source": f"radledger {__version__}"})
             written.append(out)
     return written

@@ -13,14 +13,15 @@ __all__ = ["net_radiation_files", "composite_paths", "dated_products"]
 
 
 def net_radiation_files(plan: Plan, kind: TimeKind, start: dt.date, end: dt.date) -> list[tuple[object, Path]]:
-    """Finished net-radiation products of ``kind`` dated within [start, end], in time order."""
+    """Finished net-radiation products of ``kind`` dated within [start, end], in time order.
+
+    A scene's own daily estimate (methods.scene_to_day) is a different quantity from an FAO-56 day
+    and may exist several times per date: composites ``from: days`` use the FAO-56 days only.
+    """
     kind = TimeKind(kind)
     out = []
     for job in plan.jobs:
-        if kind is TimeKind.DAYS:
-            path = job.outputs.get("net_radiation") if job.kind is TimeKind.DAYS else job.day_output
-        else:
-            path = job.outputs.get("net_radiation") if job.kind is TimeKind.SCENES else None
+        path = job.outputs.get("net_radiation") if job.kind is kind else None
         if path is not None and start <= job.day <= end and path.exists():
             out.append((job.when if kind is TimeKind.SCENES else job.day, path))
     return sorted(out, key=lambda t: str(t[0]))
@@ -35,8 +36,6 @@ def dated_products(plan: Plan, kind: TimeKind) -> dict[str, list[tuple[object, P
     by_product: dict[str, list[tuple[object, Path]]] = {}
     for job in plan.jobs:
         items = list(job.outputs.items()) if job.kind is kind else []
-        if kind is TimeKind.DAYS and job.day_output is not None:
-            items.append(("net_radiation", job.day_output))
         for name, path in items:
             if path.exists():
                 when = job.when if kind is TimeKind.SCENES else job.day

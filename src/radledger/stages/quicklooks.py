@@ -6,7 +6,6 @@ from pathlib import Path
 
 from ..io.cog import read_tags
 from ..io.vectors import read_zones
-from ..model.products import QUALITY_BITS
 from ..outputs.quicklooks import write_quicklook
 from ..planning.plan import Plan
 
@@ -22,6 +21,13 @@ def _sign(positive: str) -> str | None:
     return None
 
 
+def _flags_of(tags: dict) -> dict[str, int] | None:
+    """The bit meanings a flag product states in its own tags (None for other products)."""
+    if not tags.get("flag_meanings"):
+        return None
+    return dict(zip(tags["flag_meanings"].split(), (int(m) for m in tags["flag_masks"].split())))
+
+
 def _quicklook_args(path: Path) -> dict:
     tags = read_tags(path)
     name = tags.get("quantity", path.stem)
@@ -35,7 +41,7 @@ def _quicklook_args(path: Path) -> dict:
     args = dict(units=tags.get("units", ""), label=shown.split(" (")[0] if stat else shown,
                 positive=positive, diverging=base in ("net_radiation", "daily_net_radiation", "net_longwave")
                 and stat not in ("count", "std"),
-                categorical_bits=QUALITY_BITS if tags.get("flag_meanings") else None)
+                categorical_bits=_flags_of(tags))
     if stat == "count":
         window = when.replace("/", " to ")
         members = int(tags.get("members", "0") or 0)

@@ -15,7 +15,7 @@ __all__ = ["run_stac"]
 def run_stac(plan: Plan) -> list[Path]:
     """One item per scene time and day with finished products; [] when there is none yet."""
     dated = [DatedProducts(kind, when, {name: p for name, p in paths.items() if p.exists()})
-             for kind in TimeKind for when, paths in dated_targets(plan, kind).items()]
+             for kind in TimeKind for when, paths in dated_targets(plan, kind, with_scene_days=True).items()]
     dated = [d for d in dated if d.paths]
     if not dated:
         return []

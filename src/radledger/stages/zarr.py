@@ -18,15 +18,18 @@ from ..planning.plan import Plan
 __all__ = ["run_zarr", "dated_targets"]
 
 
-def dated_targets(plan: Plan, kind: TimeKind) -> dict[object, dict[str, Path]]:
-    """Every date of ``kind`` in the plan (scene time or day) -> {product: final path}, in time order."""
+def dated_targets(plan: Plan, kind: TimeKind, *, with_scene_days: bool = False) -> dict[object, dict[str, Path]]:
+    """Every date of ``kind`` in the plan (scene time or day) -> {product: final path}, in time order.
+
+    A scene's own daily estimate (methods.scene_to_day) is a quantity of its own, kept out of the
+    day stores as it is out of the NetCDF stacks; ``with_scene_days`` lists it with its scene.
+    """
     by_time: dict[object, dict[str, Path]] = {}
     for job in plan.jobs:
         if job.kind is kind:
             when = job.when if kind is TimeKind.SCENES else job.day
-            by_time.setdefault(when, {}).update(job.outputs)
-        elif kind is TimeKind.DAYS and job.day_output is not None:
-            by_time.setdefault(job.day, {})["net_radiation"] = job.day_output
+            targets = job.targets() if with_scene_days else job.outputs
+            by_time.setdefault(when, {}).update(targets)
     return dict(sorted(by_time.items(), key=lambda item: _utc(item[0])))
 
 

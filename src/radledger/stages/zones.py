@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import warnings
 from pathlib import Path
 
 from ..execution.engine import Engine
@@ -13,11 +12,7 @@ from ..outputs.zones import (write_zone_csv, zone_labels, zone_statistics, zone_
 from ..planning.plan import Plan
 from .products import composite_paths
 
-__all__ = ["run_zones", "ZoneWarning"]
-
-
-class ZoneWarning(UserWarning):
-    """A zone lies partly or wholly off the grid: its coverage counts that part as not valid."""
+__all__ = ["run_zones"]
 
 
 def _zone_targets(plan: Plan) -> list[Path]:
@@ -32,18 +27,19 @@ def _zone_targets(plan: Plan) -> list[Path]:
     return paths
 
 
-def _warn_off_grid(plan: Plan, zones) -> None:
+def _warn_off_grid(plan: Plan, zones, engine: Engine) -> None:
+    """The run summary's warning for each zone that lies partly or wholly off the grid."""
     for zone_id, inside in zones_off_the_grid(zones, plan.grid):
         where = "lies outside the grid" if inside == 0 else f"has only {inside:.1%} of its area on the grid"
-        warnings.warn(f"zones.path: {plan.cfg.zones.path}: zone {zone_id!r} {where}; its coverage counts the "
-                      f"rest as not valid and area_km2 is the whole polygon's", ZoneWarning, stacklevel=3)
+        engine.events.warn(f"zones.path: {plan.cfg.zones.path}: zone {zone_id!r} {where}; its coverage counts "
+                           f"the rest as not valid and area_km2 is the whole polygon's")
 
 
 def run_zones(plan: Plan, engine: Engine) -> list[Path]:
     """One CSV per product under ``zones/``; every statistic computed by the engine."""
     z = plan.cfg.zones
     zones = read_zones(z.path, z.id, plan.grid)
-    _warn_off_grid(plan, zones)
+    _warn_off_grid(plan, zones, engine)
     labels = zone_labels(zones, plan.grid) if z.weighting == "centre" else None
     written = []
     for p in _zone_targets(plan):
