@@ -7,6 +7,7 @@ import json
 import numpy as np
 import pytest
 import rasterio
+from matplotlib import colormaps
 from matplotlib.colors import to_rgb
 from PIL import Image
 from pyproj import Transformer
@@ -117,3 +118,69 @@ def test_unwritable_folder(scene, tmp_path):
     _, tif, _, _, _ = scene
     with pytest.raises(OutputError, match=r"nope[/\\]x\.png: cannot write there"):
         write_quicklook(tif, tmp_path / "nope" / "x.png", title="t", units="W m-2", diverging=False)
+
+
+# --- reading the colours -----------------------------------------------------------------------
+def _field(grid, left, right):
+    """Left 70 % of the columns at ``left``, the rest at ``right``, with a gentle ramp (fixture)."""
+    rows, cols = np.mgrid[0:grid.height, 0:grid.width]
+    v = np.where(cols < 0.7 * grid.width, left, right) + 0.05 * np.abs(left - right) * rows / grid.height
+    return v.astype(np.float32)
+
+
+def _reds_and_blues(pixels):
+    r, g, b = (pixels[..., i].astype(int) for i in range(3))
+    red = (r > g + 60) & (r > b + 60)      # RdBu's reds; viridis has none
+    blue = (b > r + 60) & (b > g + 20)     # RdBu's blues
+    return int(red.sum()), int(blue.sum())
+
+
+def test_one_signed_values_get_a_sequential_scale(tmp_path):
+    grid = utm_grid(120, 90, chunk=64)
+    tif = write_raster(tmp_path / "rn.tif", grid, _field(grid, 450.0, 600.0))
+    png = write_quicklook(tif, tmp_path / "rn.png", title="net radiation", units="W m-2", diverging=True,
+                          positive="gain")
+    _, pixels = _rgb(png)
+    # viridis' two ends (matplotlib's colour table) are both drawn; no red/blue of a diverging scale
+    assert _has_colour(pixels, colormaps["viridis"](0.0), tol=3) and _has_colour(pixels, colormaps["viridis"](1.0), tol=3)
+    assert _reds_and_blues(pixels)[0] < 50
+
+
+@pytest.mark.parametrize("positive,more", [("gain", "red"), ("loss", "blue")])
+def test_mixed_signs_read_red_for_gain_and_blue_for_loss(tmp_path, positive, more):
+    grid = utm_grid(120, 90, chunk=64)
+    tif = write_raster(tmp_path / "f.tif", grid, _field(grid, 150.0, -60.0))   # 70 % of the map positive
+    png = write_quicklook(tif, tmp_path / "f.png", title="t", units="W m-2", diverging=True, positive=positive)
+    red, blue = _reds_and_blues(_rgb(png)[1])
+    assert (red > 2 * blue) if more == "red" else (blue > 2 * red)
+
+
+def test_counts_are_whole_numbers_one_colour_each(tmp_path):
+    grid = utm_grid(120, 90, chunk=64)
+    rows, cols = np.mgrid[0:grid.height, 0:grid.width]
+    count = (cols // 20).astype(np.float32)   # 0..5 in vertical bands
+    tif = write_raster(tmp_path / "c.tif", grid, count)
+    png = write_quicklook(tif, tmp_path / "c.png", title="valid dates", units="valid dates", diverging=False,
+                          counts=5)
+    _, pixels = _rgb(png)
+    steps = colormaps["viridis"].resampled(6)   # six colours, one per count 0..5 (matplotlib)
+    assert all(_has_colour(pixels, steps(k), tol=2) for k in range(6))
+    assert not _has_colour(pixels, colormaps["viridis"](0.1), tol=1)   # no shade between two counts
+
+
+def test_stage_titles_and_labels_from_the_product_tags(tmp_path):
+    from radledger.stages.quicklooks import _quicklook_args
+
+    grid = utm_grid(20, 16, chunk=16)
+    lw = write_raster(tmp_path / "net_longwave_20260714T1810.tif", grid, np.ones(grid.shape, np.float32), tags={
+        "quantity": "net_longwave", "units": "W m-2", "positive": "upward (loss by the surface)",
+        "time": "2026-07-14T18:10:00Z", "time_kind": "scenes", "inputs": "shortwave_down=rs.tif"})
+    args = _quicklook_args(lw)
+    assert args["title"].startswith("net longwave loss (positive = loss)")
+    assert args["label"] == "net longwave loss (positive = loss)" and args["positive"] == "loss"
+    count = write_raster(tmp_path / "summer_count.tif", grid, np.ones(grid.shape, np.float32), tags={
+        "quantity": "net_radiation count", "statistic": "count", "members": "8", "units": "1",
+        "time": "2026-06-01/2026-08-31", "time_kind": "composites"})
+    args = _quicklook_args(count)
+    assert args["counts"] == 8 and args["units"] == "valid dates" and not args["label"]
+    assert "valid dates" in args["title"] and "2026-06-01 to 2026-08-31" in args["title"]

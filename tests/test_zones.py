@@ -9,6 +9,7 @@ import tempfile
 from pathlib import Path
 
 import dask
+import dask.array as da
 import numpy as np
 import pyogrio
 import pytest
@@ -17,11 +18,17 @@ from pyproj import Geod, Transformer
 from rasterio.windows import Window
 
 from helpers_rasters import utm_grid, write_raster
+from scenario import make_scenario
+from radledger.config import load_config
+from radledger.errors import ConfigError
 from radledger.io.lazy import read_product
+from radledger.runner import run_config
+from radledger.execution.events import RunEvents
 from radledger.errors import InputError, OutputError
 from radledger.grid import TargetGrid
 from radledger.io.vectors import read_zones
-from radledger.outputs.zones import write_zone_csv, zone_labels, zone_statistics
+from radledger.outputs.zones import (write_zone_csv, zone_labels, zone_statistics, zone_statistics_coverage,
+                                     zones_off_the_grid)
 
 
 @pytest.fixture(scope="module")
@@ -105,6 +112,12 @@ def test_labels_follow_pixel_centres(grid, lonlat_zones):
     assert set(np.unique(got)) == {0, 1, 2, 3}  # 'away' (4) has no pixel
 
 
+def _shoelace_km2(ring):
+    """Planar polygon area by the shoelace formula [km2] (ring in metres)."""
+    x, y = np.asarray(ring, dtype=np.float64).T
+    return abs(np.dot(x[:-1], y[1:]) - np.dot(x[1:], y[:-1])) / 2 / 1e6
+
+
 def test_statistics_match_numpy(grid, lonlat_zones, values):
     path, polys = lonlat_zones
     zones = read_zones(path, "basin_id", grid)
@@ -118,9 +131,18 @@ def test_statistics_match_numpy(grid, lonlat_zones, values):
         assert row["mean"] == pytest.approx(ok.mean(), rel=1e-12)
         assert row["std"] == pytest.approx(ok.std(ddof=0), rel=1e-9)
         assert row["min"] == ok.min() and row["max"] == ok.max()
-        assert row["coverage"] == pytest.approx(ok.size / inside.size, rel=1e-12)
-        assert row["area_km2"] == pytest.approx(inside.size * 30 * 30 / 1e6, rel=1e-12)  # 30 m pixels
-        assert 0 < row["coverage"] < 1  # the NaN holes
+    upper = rows[0]   # wholly on the grid: coverage = valid / zone pixels
+    inside = values[expected_labels == 1]
+    assert upper["coverage"] == pytest.approx(np.isfinite(inside).sum() / inside.size, rel=1e-12)
+    assert 0 < upper["coverage"] < 1  # the NaN holes
+    # area_km2: the polygon's own area, shoelace over the UTM ring the fixture drew (0.1 %: lon/lat round trip)
+    assert upper["area_km2"] == pytest.approx(_shoelace_km2(UPPER_RING(grid)), rel=1e-3)
+
+
+def UPPER_RING(grid):
+    x0, y0, x1, y1 = grid.bounds
+    return [(x0 + 65, y1 - 70), (x0 + 520, y1 - 95), (x0 + 610, y1 - 400), (x0 + 260, y1 - 520),
+            (x0 + 95, y1 - 330), (x0 + 65, y1 - 70)]
 
 
 def test_edge_zone_counts_only_pixels_on_the_grid(grid, lonlat_zones, values):
@@ -128,8 +150,10 @@ def test_edge_zone_counts_only_pixels_on_the_grid(grid, lonlat_zones, values):
     zones = read_zones(path, "basin_id", grid)
     edge = zone_statistics(values, zone_labels(zones, grid), zones, grid)[1]
     # hand count of centres inside: x > x1 - 310 -> columns 30..39 (10); 200 m <= y - y0 <= 640 m -> rows 9..22 (14)
-    assert edge["area_km2"] == pytest.approx(10 * 14 * 900 / 1e6)
-    assert shapely.area(zones.geometries[1]) / 1e6 > edge["area_km2"]  # the polygon is larger than its part here
+    on_grid = values[9:23, 30:40]
+    # the polygon by hand: 710 m x 440 m, of which 310 m x 440 m lie on the grid
+    assert edge["area_km2"] == pytest.approx(0.710 * 0.440, rel=1e-3)
+    assert edge["coverage"] == pytest.approx(np.isfinite(on_grid).sum() / 140 * 310 / 710, rel=1e-3)
 
 
 def test_zone_without_valid_pixels_and_zone_off_grid(grid, lonlat_zones, values):
@@ -138,7 +162,9 @@ def test_zone_without_valid_pixels_and_zone_off_grid(grid, lonlat_zones, values)
     dry, away = zone_statistics(values, zone_labels(zones, grid), zones, grid)[2:]
     assert dry["count"] == 0 and dry["coverage"] == 0.0 and dry["area_km2"] > 0
     assert all(math.isnan(dry[k]) for k in ("mean", "min", "max", "std"))
-    assert away["count"] == 0 and away["area_km2"] == 0.0 and away["coverage"] == 0.0
+    assert away["count"] == 0 and away["coverage"] == 0.0
+    assert away["area_km2"] == pytest.approx(1.0 * 1.0 / 2, rel=1e-3)  # the 1 km right triangle, by hand
+    assert zones_off_the_grid(zones, grid) == [("edge", pytest.approx(310 / 710, rel=1e-3)), ("away", 0.0)]
 
 
 def test_dask_values_from_a_product_file(grid, lonlat_zones, values, tmp_path):
@@ -181,29 +207,116 @@ def test_overlap_later_zone_wins_and_gpkg_integer_ids(grid, tmp_path):
     assert both.any() and (labels[both] == 2).all()
 
 
-def _geographic_case(tmp_path):
+def _geographic_case(tmp_path, weighting="centre"):
     grid = TargetGrid.from_bounds("EPSG:4326", 0.01, (10.0, 45.0, 10.3, 45.2), chunk=8)
-    zone = shapely.box(10.05, 45.05, 10.25, 45.15)
+    zone = shapely.box(10.05, 45.05, 10.25, 45.15)   # edges on pixel edges
     path = _write_geojson(tmp_path / "z.geojson", [_feature({"id_": "Z"}, list(zone.exterior.coords))])
     zones = read_zones(path, "id_", grid)
-    row = zone_statistics(np.ones(grid.shape, np.float32), zone_labels(zones, grid), zones, grid)[0]
+    ones = np.ones(grid.shape, np.float32)
+    if weighting == "centre":
+        row = zone_statistics(ones, zone_labels(zones, grid), zones, grid)[0]
+    else:
+        row = zone_statistics_coverage(ones, zones, grid)[0]
     labels = zone_labels(zones, grid).compute(scheduler="sync")
-    return grid, row, labels
+    return grid, row, labels, zone
 
 
-def test_geographic_grid_area_is_sum_of_pixel_areas(tmp_path):
-    grid, row, labels = _geographic_case(tmp_path)
-    assert row["area_km2"] == pytest.approx(grid.pixel_area(_full(grid))[labels == 1].sum() / 1e6, rel=1e-12)
-    assert row["count"] == labels.sum() and row["mean"] == 1.0 and row["std"] == 0.0
+@pytest.mark.parametrize("weighting", ["centre", "coverage"])
+def test_geographic_grid_area_is_the_geodesic_area(tmp_path, weighting):
+    grid, row, labels, zone = _geographic_case(tmp_path, weighting)
+    # pyproj's ellipsoidal (Karney 2013) area of the box with its parallels traced by 2000 points a side
+    dense = shapely.segmentize(zone, 0.0001)
+    geodesic = abs(Geod(ellps="WGS84").geometry_area_perimeter(dense)[0]) / 1e6
+    assert row["area_km2"] == pytest.approx(geodesic, rel=1e-6)
+    assert row["count"] == labels.sum() == 20 * 10 and row["mean"] == pytest.approx(1.0) and row["std"] < 1e-6
+    assert row["coverage"] == pytest.approx(1.0, rel=1e-5)   # every pixel valid, the whole zone on the grid
 
 
-def test_geographic_grid_area_matches_geodesic_area(tmp_path):
-    grid, row, labels = _geographic_case(tmp_path)
-    xs, ys = grid.pixel_centres(_full(grid))
-    cells = shapely.union_all([shapely.box(x - 0.005, y - 0.005, x + 0.005, y + 0.005)
-                               for x, y in zip(xs[labels == 1], ys[labels == 1])])
-    geodesic = abs(Geod(ellps="WGS84").geometry_area_perimeter(cells)[0]) / 1e6  # pyproj's ellipsoidal area
-    assert row["area_km2"] == pytest.approx(geodesic, rel=1e-5)
+# --- coverage weighting ---------------------------------------------------------------------
+def _shapely_fractions(grid, polygon):
+    """Covered fraction of every pixel by shapely intersection, pixel by pixel (independent of exactextract)."""
+    out = np.zeros(grid.shape)
+    t = grid.transform
+    for r in range(grid.height):
+        for c in range(grid.width):
+            cell = shapely.box(t.c + c * t.a, t.f + (r + 1) * t.e, t.c + (c + 1) * t.a, t.f + r * t.e)
+            out[r, c] = shapely.intersection(polygon, cell).area / cell.area
+    return out
+
+
+def test_coverage_weighted_statistics_match_shapely_fractions(grid, lonlat_zones, values):
+    path, _ = lonlat_zones
+    zones = read_zones(path, "basin_id", grid)
+    rows = zone_statistics_coverage(da.from_array(values, chunks=16), zones, grid)
+    assert [r["basin_id"] for r in rows] == ["upper", "edge", "dry", "away"]
+    x0, y0, x1, _ = grid.bounds
+    areas = {"upper": _shoelace_km2(UPPER_RING(grid)), "edge": 0.710 * 0.440}   # the fixture's rings, by hand
+    for row, polygon in zip(rows[:2], zones.geometries[:2]):
+        f = _shapely_fractions(grid, polygon)
+        ok = (f > 0) & np.isfinite(values)
+        w, v = f[ok], values[ok].astype(np.float64)
+        mean = np.sum(w * v) / np.sum(w)
+        assert row["mean"] == pytest.approx(mean, rel=1e-4)
+        assert row["std"] == pytest.approx(np.sqrt(np.sum(w * (v - mean) ** 2) / np.sum(w)), rel=1e-4)
+        assert (row["min"], row["max"]) == (v.min(), v.max()) and row["count"] == ok.sum()
+        assert row["area_km2"] == pytest.approx(areas[row["basin_id"]], rel=1e-3)
+        assert row["coverage"] == pytest.approx(np.sum(w) * 900 / 1e6 / areas[row["basin_id"]], rel=1e-3)
+    dry, away = rows[2:]
+    assert dry["count"] == 0 and math.isnan(dry["mean"]) and dry["coverage"] == 0.0
+    assert away["count"] == 0 and away["coverage"] == 0.0 and away["area_km2"] > 0
+
+
+@pytest.mark.parametrize("weighting", ["centre", "coverage"])
+def test_zone_half_off_the_grid_has_coverage_one_half(grid, tmp_path, weighting):
+    x0, y0, x1, y1 = grid.bounds
+    ring = [(x1 - 300, y0 + 300), (x1 + 300, y0 + 300), (x1 + 300, y0 + 600), (x1 - 300, y0 + 600),
+            (x1 - 300, y0 + 300)]
+    path = _write_geojson(tmp_path / "half.geojson", [_feature({"id": "half"}, _utm_ring_to_lonlat(grid, ring))])
+    zones = read_zones(path, "id", grid)
+    full = np.full(grid.shape, 250.0, np.float32)   # every pixel valid
+    if weighting == "centre":
+        row = zone_statistics(full, zone_labels(zones, grid), zones, grid)[0]
+    else:
+        row = zone_statistics_coverage(full, zones, grid)[0]
+    assert row["coverage"] == pytest.approx(0.5, abs=2e-3)       # 300 m of 600 m lie on the grid (by hand)
+    assert row["area_km2"] == pytest.approx(0.6 * 0.3, rel=1e-3)  # the whole 600 m x 300 m box
+    assert row["mean"] == pytest.approx(250.0)
+    assert zones_off_the_grid(zones, grid) == [("half", pytest.approx(0.5, abs=2e-3))]
+
+
+def test_run_warns_of_a_zone_off_the_grid_and_writes_coverage_tables(tmp_path):
+    sc = make_scenario(tmp_path, shape=(64, 80), chunk=32)
+    x0, y0 = sc.transform.c, sc.transform.f
+    x1, ymin = x0 + 80 * 30, y0 - 64 * 30
+    rings = {"inner": [(x0 + 100, y0 - 100), (x0 + 1000, y0 - 150), (x0 + 800, y0 - 1200), (x0 + 100, y0 - 100)],
+             "half": [(x1 - 400, ymin + 200), (x1 + 400, ymin + 200), (x1 + 400, ymin + 900), (x1 - 400, ymin + 900),
+                      (x1 - 400, ymin + 200)]}
+    to_ll = Transformer.from_crs("EPSG:32611", "EPSG:4326", always_xy=True)
+    _write_geojson(tmp_path / "basins.geojson", [_feature({"basin": k}, [list(to_ll.transform(*p)) for p in r])
+                                                 for k, r in rings.items()])
+    sc.write_config(**{"zones.path": "basins.geojson", "zones.id": "basin", "zones.weighting": "coverage"})
+    class Heard(RunEvents):
+        said: list = []
+
+        def warn(self, text):
+            self.said.append(text)
+
+    run_config(load_config(sc.config), events=Heard())
+    assert len(Heard.said) == 1 and "zone 'half' has only 50.0% of its area on the grid" in Heard.said[0]
+    with open(tmp_path / "out" / "zones" / "net_radiation_20260714T1810.csv", newline="") as fh:
+        table = {r["basin"]: r for r in csv.DictReader(fh)}
+    assert set(table) == {"inner", "half"}
+    # the 800 m x 700 m box, half of it on the grid, every pixel there valid (by hand)
+    assert float(table["half"]["coverage"]) == pytest.approx(0.5, abs=1e-3)
+    assert float(table["half"]["area_km2"]) == pytest.approx(0.8 * 0.7, rel=1e-3)
+
+
+def test_unknown_weighting_is_a_config_error(tmp_path):
+    sc = make_scenario(tmp_path, shape=(32, 32), chunk=32)
+    (tmp_path / "z.geojson").write_text(json.dumps({"type": "FeatureCollection", "features": []}))
+    sc.write_config(**{"zones.path": "z.geojson", "zones.id": "basin", "zones.weighting": "area"})
+    with pytest.raises(ConfigError, match=r"zones\.weighting: unknown value 'area'.*valid: centre, coverage"):
+        load_config(sc.config)
 
 
 # --- CSV -------------------------------------------------------------------------------------

@@ -21,4 +21,17 @@ def run(config, **options):
     return _run(config, **options)
 
 
-__all__ = ["__version__", "net_radiation", "daily_net_radiation", "run"]
+def open_products(directory, kind="days", **options):
+    """The products a run wrote under ``directory`` as one lazy ``xarray.Dataset`` (time, y, x).
+
+    ``kind``: ``"days"`` or ``"scenes"``.  One variable per product with CF attributes, ``time``
+    in UTC (days: 00:00 UTC plus a ``date`` coordinate), the CRS via rioxarray (``ds.rio.crs``).
+    Options: ``products`` (names to keep), ``chunks`` (Dask chunk edge, default 512).
+    Imported lazily: the physics API does not need xarray or rioxarray.
+    """
+    from .outputs.cube import open_products as _open_products
+
+    return _open_products(directory, kind, **options)
+
+
+__all__ = ["__version__", "net_radiation", "daily_net_radiation", "run", "open_products"]

@@ -2,8 +2,9 @@
 
 scenes and days (each product written as soon as it is complete) ->
 composites over the finished day/scene products -> zone tables -> NetCDF
-stacks -> quicklooks.  A rerun skips products whose inputs and settings are
-unchanged (their ``settings_hash`` tag) and finishes the rest.
+stacks -> Zarr stores -> STAC catalog -> quicklooks.  A rerun skips products
+whose inputs and settings are unchanged (their ``settings_hash`` tag) and
+finishes the rest.
 """
 
 from __future__ import annotations
@@ -23,6 +24,8 @@ from .stages.composites import run_composite
 from .stages.jobs import run_jobs
 from .stages.netcdf import run_netcdf
 from .stages.quicklooks import run_quicklooks
+from .stages.stac import run_stac
+from .stages.zarr import run_zarr
 from .stages.zones import run_zones
 
 __all__ = ["run", "run_config", "RunReport"]
@@ -84,6 +87,15 @@ def run_config(cfg: Config, *, overwrite: bool = False, scheduler: str | None = 
             w = run_netcdf(plan)
             report.written += w
             events.stage_done("netcdf", len(w))
+        if cfg.output.zarr:
+            w, s = run_zarr(plan, engine, overwrite=overwrite)
+            report.written += w
+            report.skipped += s
+            events.stage_done("zarr", len(w), len(s))
+        if cfg.output.stac:
+            w = run_stac(plan)
+            report.written += w
+            events.stage_done("stac", len(w))
         if cfg.output.quicklooks:
             w = run_quicklooks(plan, report.paths, overwrite=overwrite)
             report.written += w

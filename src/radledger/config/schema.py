@@ -16,8 +16,9 @@ from ..model.products import DEFAULT_PRODUCTS
 
 __all__ = ["Config", "GridSpec", "LayerDecoding", "InputSpec", "EmissivitySpec", "Methods", "Scene", "Day",
            "CompositeSpec", "ZonesSpec", "OutputSpec", "DEFAULTS", "keys_of",
-           "RESAMPLING", "CLEAR_SKY_MODELS", "SCENE_TO_DAY"]
+           "RESAMPLING", "CLEAR_SKY_MODELS", "SCENE_TO_DAY", "ZONE_WEIGHTING"]
 
+ZONE_WEIGHTING = ("centre", "coverage")
 RESAMPLING = ("nearest", "bilinear", "cubic", "cubic_spline", "lanczos", "average")
 CLEAR_SKY_MODELS = ("fao56", "beam-diffuse")
 SCENE_TO_DAY = ("none", "sinusoidal", "shortwave-ratio")
@@ -142,6 +143,7 @@ class CompositeSpec:
 class ZonesSpec:
     path: str
     id: str
+    weighting: str = "centre"     # "centre": pixel-centre rule; "coverage": exact pixel fractions
 
 
 @dataclass(frozen=True)
@@ -151,6 +153,8 @@ class OutputSpec:
     compression: str = "zstd"
     netcdf: bool = False
     quicklooks: bool = False
+    zarr: bool = False            # DIR/zarr/{scenes|days}.zarr
+    stac: bool = False            # DIR/stac/catalog.json
 
 
 @dataclass(frozen=True)
@@ -198,6 +202,7 @@ DEFAULTS: dict[str, Any] = {
     **_defaults_of("grid", GridSpec),
     **_defaults_of("emissivity", EmissivitySpec),
     **_defaults_of("methods", Methods),
+    **_defaults_of("zones", ZonesSpec),
     **{k: (str(v) if isinstance(v, Path) else v) for k, v in _defaults_of("output", OutputSpec).items()},
     **{k.replace("composite.", "composites."): v for k, v in _defaults_of("composite", CompositeSpec).items()
        if not k.endswith(".key")},

@@ -12,7 +12,7 @@ from ..model.products import ALL_PRODUCT_NAMES, DEFAULT_PRODUCTS
 from ..physics.longwave import CLOUD_MODELS, SKY_EMISSIVITY_MODELS
 from ..units import canonical_unit
 from .schema import (CLEAR_SKY_MODELS, RESAMPLING, SCENE_TO_DAY, EmissivitySpec, GridSpec, LayerDecoding,
-                     Methods, OutputSpec, ZonesSpec, keys_of)
+                     Methods, OutputSpec, ZONE_WEIGHTING, ZonesSpec, keys_of)
 
 __all__ = ["layers", "grid", "emissivity", "methods", "zones", "output"]
 
@@ -150,7 +150,8 @@ def zones(v, value) -> ZonesSpec | None:
         v.fail("zones.path", "missing; give a GeoJSON or GeoPackage of polygons")
     if not isinstance(zid, str) or not zid:
         v.fail("zones.id", "missing; name the attribute that identifies each zone")
-    return ZonesSpec(path=path, id=zid) if path and isinstance(zid, str) else None
+    weighting = v.choice(value.get("weighting"), "zones.weighting", ZONE_WEIGHTING, ZonesSpec.weighting)
+    return ZonesSpec(path=path, id=zid, weighting=weighting) if path and isinstance(zid, str) else None
 
 
 def output(v, value) -> OutputSpec:
@@ -185,4 +186,6 @@ def output(v, value) -> OutputSpec:
                                 OutputSpec.compression),
         netcdf=v.boolean(value.get("netcdf"), "output.netcdf", OutputSpec.netcdf),
         quicklooks=v.boolean(value.get("quicklooks"), "output.quicklooks", OutputSpec.quicklooks),
+        zarr=v.boolean(value.get("zarr"), "output.zarr", OutputSpec.zarr),
+        stac=v.boolean(value.get("stac"), "output.stac", OutputSpec.stac),
     )

@@ -6,10 +6,12 @@ whatever the scene size.  Figures are drawn on a private
 :class:`matplotlib.figure.Figure` with the Agg canvas: no pyplot, no global
 state.
 
-Colours: a diverging map (``RdBu_r``) centred on zero for signed products, a
-sequential one (``viridis``) otherwise, limits from the 2nd-98th percentiles;
-NaN is light grey.  Quality bit flags are drawn as discrete categories (one per
-bit combination present) with a legend.
+Colours: limits from the 2nd-98th percentiles; a diverging map centred on zero
+where a signed product's limits straddle zero (red = energy gained by the surface,
+blue = lost: ``RdBu_r``, or ``RdBu`` for net longwave, whose positive values are a
+loss), a sequential one (``viridis``) where they have one sign; NaN is light grey.  Counts (valid dates of a composite) get one colour
+per whole number and integer ticks.  Quality bit flags are drawn as discrete
+categories (one per bit combination present) with a legend.
 """
 
 from __future__ import annotations
@@ -27,6 +29,7 @@ from matplotlib import colormaps, colors, patheffects
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.patches import Patch
+from matplotlib.ticker import MaxNLocator
 from pyproj import CRS
 from rasterio.enums import Resampling
 
@@ -81,36 +84,63 @@ def _axes_frame(crs) -> tuple[float, str, str, float]:
     return 1.0, f"x [{unit}]  ({name})", f"y [{unit}]", 1.0
 
 
-def _continuous(ax, fig, data, extent, *, units: str, diverging: bool):
+def _continuous(ax, fig, data, extent, *, bar_label: str, diverging: bool, positive: str | None):
+    """A continuous colour bar: diverging around zero only where the colour limits straddle it."""
     finite = data.compressed()
-    cmap = colormaps[DIVERGING_CMAP if diverging else SEQUENTIAL_CMAP].with_extremes(bad=NAN_COLOUR)
     if finite.size:
         lo, hi = (float(v) for v in np.percentile(finite, PERCENTILES))
     else:
-        lo, hi = (-1.0, 1.0) if diverging else (0.0, 1.0)
+        lo, hi = 0.0, 1.0
+    # one sign between the colour limits (every value, or all but a few outliers): a sequential map,
+    # so the whole colour range describes the values instead of half of it lying unused
+    diverging = diverging and lo < 0 < hi
     if diverging:
-        if lo < 0 < hi:
-            norm = colors.TwoSlopeNorm(vcenter=0.0, vmin=lo, vmax=hi)
-        else:  # one sign only: symmetric limits keep zero at the centre colour
-            v = max(abs(lo), abs(hi)) or 1.0
-            norm = colors.Normalize(-v, v)
+        # red = energy gained by the surface, blue = lost: RdBu_r when positive means a gain,
+        # RdBu (reversed) when positive means a loss (net longwave), so colours read alike on every map
+        name = DIVERGING_CMAP if positive != "loss" else DIVERGING_CMAP.removesuffix("_r")
+        norm = colors.TwoSlopeNorm(vcenter=0.0, vmin=lo, vmax=hi)
     else:
+        name = SEQUENTIAL_CMAP
         if hi <= lo:
             lo, hi = lo - (abs(lo) * 0.01 or 1.0), hi + (abs(hi) * 0.01 or 1.0)
         norm = colors.Normalize(lo, hi)
+    cmap = colormaps[name].with_extremes(bad=NAN_COLOUR)
     image = ax.imshow(data, cmap=cmap, norm=norm, extent=extent, interpolation="nearest", origin="upper")
     below = finite.size and finite.min() < norm.vmin
     above = finite.size and finite.max() > norm.vmax
     extend = {(True, True): "both", (True, False): "min", (False, True): "max"}.get((bool(below), bool(above)),
                                                                                    "neither")
     bar = fig.colorbar(image, ax=ax, extend=extend, shrink=0.9, pad=0.02)
-    bar.set_label(units)
+    bar.set_label(bar_label)
+    if diverging and positive in ("gain", "loss"):
+        ends = ("surface gains", "surface loses") if positive == "gain" else ("surface loses", "surface gains")
+        bar.ax.text(0.5, 1.06, ends[0], transform=bar.ax.transAxes, ha="center", va="bottom", fontsize=7)
+        bar.ax.text(0.5, -0.06, ends[1], transform=bar.ax.transAxes, ha="center", va="top", fontsize=7)
     if finite.size == 0:
         ax.text(0.5, 0.5, "no valid pixels", transform=ax.transAxes, ha="center", va="center",
                 fontsize=12, color="0.25")
     else:
         limits = f"{_ordinal(PERCENTILES[0])}-{_ordinal(PERCENTILES[1])} percentile"
-        fig.text(0.01, 0.01, f"colour limits: {limits}; grey = no value", fontsize=7, color="0.35")
+        note = f"colour limits: {limits}; grey = no value"
+        other = int(np.sum(finite < 0) if lo >= 0 else np.sum(finite > 0) if hi <= 0 else 0)
+        if other:   # a one-signed scale over a few values of the other sign: say how many
+            sign = "below" if lo >= 0 else "above"
+            note += f"; {other / finite.size:.2%} of the pixels are {sign} 0 (drawn in the end colour)"
+        fig.text(0.01, 0.01, note, fontsize=7, color="0.35")
+
+
+def _counts(ax, fig, data, extent, *, bar_label: str, most: int):
+    """Whole numbers 0..most (e.g. valid dates per pixel) as one colour each, integer ticks."""
+    finite = data.compressed()
+    top = int(max(most, np.ceil(finite.max()) if finite.size else 0, 1))
+    cmap = colormaps[SEQUENTIAL_CMAP].resampled(top + 1).with_extremes(bad=NAN_COLOUR)
+    norm = colors.BoundaryNorm(np.arange(-0.5, top + 1.0), cmap.N)
+    image = ax.imshow(data, cmap=cmap, norm=norm, extent=extent, interpolation="nearest", origin="upper")
+    bar = fig.colorbar(image, ax=ax, shrink=0.9, pad=0.02)
+    bar.ax.yaxis.set_major_locator(MaxNLocator(nbins=min(top + 1, 12), integer=True))
+    bar.ax.minorticks_off()
+    bar.set_label(bar_label)
+    fig.text(0.01, 0.01, f"one colour per count, 0 to {top}; grey = no value", fontsize=7, color="0.35")
 
 
 def _ordinal(n: int) -> str:
@@ -176,7 +206,8 @@ def _draw_zones(ax, zones: Zones, crs, scale: float, extent):
 
 def write_quicklook(tif_path: str | os.PathLike, png_path: str | os.PathLike, *, title: str, units: str,
                     diverging: bool, zones: Zones | None = None, categorical_bits: Mapping[str, int] | None = None,
-                    max_pixels: int = 1000) -> Path:
+                    max_pixels: int = 1000, label: str | None = None, positive: str | None = None,
+                    counts: int | None = None) -> Path:
     """Draw a product GeoTIFF as an ~800 x 650 px PNG map (atomic write).
 
     Parameters
@@ -188,9 +219,10 @@ def write_quicklook(tif_path: str | os.PathLike, png_path: str | os.PathLike, *,
     title : str
         Title text, e.g. ``"net radiation 2026-07-14 18:10 UTC"``.
     units : str
-        Colour-bar label, e.g. ``"W m-2"``.
+        Units of the colour bar, e.g. ``"W m-2"``.
     diverging : bool
-        Centre the colour map on zero (signed products such as net radiation).
+        The product may take both signs (net radiation): where its values do, the colour
+        map is diverging and centred on zero; where every value has one sign, sequential.
     zones : Zones, optional
         Polygons drawn as thin dark outlines with their ids (reprojected to the raster CRS if needed).
     categorical_bits : mapping of str to int, optional
@@ -199,6 +231,15 @@ def write_quicklook(tif_path: str | os.PathLike, png_path: str | os.PathLike, *,
         file's, else 255) is grey.
     max_pixels : int, optional
         Longest side of the decimated read [pixel]; bounds memory.
+    label : str, optional
+        The quantity on the colour bar, before the units: ``"{label} [{units}]"``.
+    positive : {"gain", "loss"}, optional
+        What a positive value means for the surface.  A diverging map then draws gains
+        red and losses blue (``RdBu_r``, or ``RdBu`` when positive means a loss) and
+        names the two ends of its colour bar.
+    counts : int, optional
+        Draw whole numbers 0..``counts`` (e.g. valid dates of a composite), one colour
+        each, with integer ticks.
     """
     tif_path, png_path = str(tif_path), Path(png_path)
     categorical = categorical_bits is not None
@@ -220,8 +261,11 @@ def write_quicklook(tif_path: str | os.PathLike, png_path: str | os.PathLike, *,
     ax.set_facecolor("white")
     if categorical:
         _categorical(ax, data, extent, bits=categorical_bits)
+    elif counts is not None:
+        _counts(ax, fig, data, extent, bar_label=f"{label} [{units}]" if label else units, most=int(counts))
     else:
-        _continuous(ax, fig, data, extent, units=units, diverging=diverging)
+        _continuous(ax, fig, data, extent, bar_label=f"{label} [{units}]" if label else units,
+                    diverging=diverging, positive=positive)
     if zones is not None and len(zones):
         _draw_zones(ax, zones, crs, scale, extent)
     ax.set_xlim(extent[0], extent[1])

@@ -12,6 +12,15 @@ from ..planning.plan import Plan
 __all__ = ["run_quicklooks"]
 
 
+def _sign(positive: str) -> str | None:
+    """What a positive value means for the surface, from a product's ``positive`` tag."""
+    if "loss" in positive:
+        return "loss"
+    if "gain" in positive or "absorbed" in positive:
+        return "gain"
+    return None
+
+
 def _flags_of(tags: dict) -> dict[str, int] | None:
     """The bit meanings a flag product states in its own tags (None for other products)."""
     if not tags.get("flag_meanings"):
@@ -25,14 +34,25 @@ def _quicklook_args(path: Path) -> dict:
     stat = tags.get("statistic")
     base = name.split()[0]
     when = tags.get("time", "").replace("T", " ").replace("Z", " UTC")
-    title = f"{name.replace('_', ' ')}  {when}".strip()
+    positive = _sign(tags.get("positive", ""))
+    shown = name.replace("_", " ")
+    if positive == "loss":   # stored positive = loss (net longwave): say so wherever the number is read
+        shown = shown.replace("longwave", "longwave loss") + " (positive = loss)"
+    args = dict(units=tags.get("units", ""), label=shown.split(" (")[0] if stat else shown,
+                positive=positive, diverging=base in ("net_radiation", "daily_net_radiation", "net_longwave")
+                and stat not in ("count", "std"),
+                categorical_bits=_flags_of(tags))
+    if stat == "count":
+        window = when.replace("/", " to ")
+        members = int(tags.get("members", "0") or 0)
+        return dict(args, title=f"valid dates per pixel, {window} ({members} in the window)",
+                    label=None, units="valid dates", counts=members, positive=None)
+    title = f"{shown}  {when}".strip()
     if tags.get("time_kind") == "days" and tags.get("daily_total"):
         title += f" ({tags['daily_total']})"
     if tags.get("time_kind") == "scenes" and "shortwave_down=" not in tags.get("inputs", ""):
         title += " (clear-sky shortwave modelled)"
-    return dict(title=title, units=tags.get("units", ""),
-                diverging=base in ("net_radiation", "net_longwave") and stat not in ("count", "std"),
-                categorical_bits=_flags_of(tags))
+    return dict(args, title=title)
 
 
 def run_quicklooks(plan: Plan, products: list[Path], *, overwrite: bool = False) -> list[Path]:

@@ -7,7 +7,8 @@ from pathlib import Path
 from ..execution.engine import Engine
 from ..io.lazy import read_product
 from ..io.vectors import read_zones
-from ..outputs.zones import write_zone_csv, zone_labels, zone_statistics
+from ..outputs.zones import (write_zone_csv, zone_labels, zone_statistics, zone_statistics_coverage,
+                             zones_off_the_grid)
 from ..planning.plan import Plan
 from .products import composite_paths
 
@@ -26,15 +27,28 @@ def _zone_targets(plan: Plan) -> list[Path]:
     return paths
 
 
+def _warn_off_grid(plan: Plan, zones, engine: Engine) -> None:
+    """The run summary's warning for each zone that lies partly or wholly off the grid."""
+    for zone_id, inside in zones_off_the_grid(zones, plan.grid):
+        where = "lies outside the grid" if inside == 0 else f"has only {inside:.1%} of its area on the grid"
+        engine.events.warn(f"zones.path: {plan.cfg.zones.path}: zone {zone_id!r} {where}; its coverage counts "
+                           f"the rest as not valid and area_km2 is the whole polygon's")
+
+
 def run_zones(plan: Plan, engine: Engine) -> list[Path]:
     """One CSV per product under ``zones/``; every statistic computed by the engine."""
     z = plan.cfg.zones
     zones = read_zones(z.path, z.id, plan.grid)
-    labels = zone_labels(zones, plan.grid)
+    _warn_off_grid(plan, zones, engine)
+    labels = zone_labels(zones, plan.grid) if z.weighting == "centre" else None
     written = []
     for p in _zone_targets(plan):
-        rows = zone_statistics(read_product(str(p), plan.grid), labels, zones, plan.grid,
-                               compute=lambda x: engine.compute(x, label=f"zones {p.stem}"))
+        values = read_product(str(p), plan.grid)
+        compute = lambda x, stem=p.stem: engine.compute(x, label=f"zones {stem}")  # noqa: E731
+        if labels is not None:
+            rows = zone_statistics(values, labels, zones, plan.grid, compute=compute)
+        else:
+            rows = zone_statistics_coverage(values, zones, plan.grid, compute=compute)
         out = plan.out / "zones" / f"{p.stem}.csv"
         out.parent.mkdir(parents=True, exist_ok=True)
         write_zone_csv(rows, out, z.id)
