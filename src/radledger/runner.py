@@ -20,13 +20,7 @@ from .execution.events import RunEvents
 from .execution.graph import JobResult
 from .io.cog import sweep_partials
 from .planning.plan import Plan, make_plan
-from .stages.composites import run_composite
 from .stages.jobs import run_jobs
-from .stages.netcdf import run_netcdf
-from .stages.quicklooks import run_quicklooks
-from .stages.stac import run_stac
-from .stages.zarr import run_zarr
-from .stages.zones import run_zones
 
 __all__ = ["run", "run_config", "RunReport"]
 
@@ -75,28 +69,34 @@ def run_config(cfg: Config, *, overwrite: bool = False, scheduler: str | None = 
             report.written += r.written
             report.skipped += r.skipped
         for comp in cfg.composites:
+            from .stages.composites import run_composite   # stages import what they need when asked for
             w, s = run_composite(plan, comp, engine, overwrite=overwrite)
             report.written += w
             report.skipped += s
             events.stage_done(f"composite {comp.name}", len(w), len(s))
         if cfg.zones is not None:
+            from .stages.zones import run_zones
             w = run_zones(plan, engine)
             report.written += w
             events.stage_done("zones", len(w))
         if cfg.output.netcdf:
+            from .stages.netcdf import run_netcdf
             w = run_netcdf(plan)
             report.written += w
             events.stage_done("netcdf", len(w))
         if cfg.output.zarr:
+            from .stages.zarr import run_zarr
             w, s = run_zarr(plan, engine, overwrite=overwrite)
             report.written += w
             report.skipped += s
             events.stage_done("zarr", len(w), len(s))
         if cfg.output.stac:
+            from .stages.stac import run_stac
             w = run_stac(plan)
             report.written += w
             events.stage_done("stac", len(w))
         if cfg.output.quicklooks:
+            from .stages.quicklooks import run_quicklooks
             w = run_quicklooks(plan, report.paths, overwrite=overwrite)
             report.written += w
             events.stage_done("quicklooks", len(w))

@@ -1,10 +1,14 @@
-"""The graph of a scene or day, and the run that computes it.
+"""The graph of a batch of dates (scenes or days), and the run that computes it.
 
-One task per chunk: it reads every input window once, runs the kernel,
-writes every product (and its overview levels) into the intermediates and
-returns only a small summary.  Nothing large travels between tasks, so
-memory is a couple of chunks per core whatever the scene size, and the same
-graph runs on threads or on a cluster.  Building the graph computes nothing.
+One task per chunk: for each date of the batch it reads every input window
+once, runs the kernel, writes every product (and its overview levels) into
+the intermediates and hands the arrays to the streams (composites) before the
+next date; it returns only small summaries.  What is the same for every date
+(coordinates, shared static layers, where the pixels fall on coarser source
+grids) is computed once per task (execution/context.py).  Nothing large
+travels between tasks, so memory is a couple of chunks per core whatever the
+scene size or the number of dates, and the same graph runs on threads or on a
+cluster.  Building the graph computes nothing.
 """
 
 from __future__ import annotations
@@ -26,10 +30,11 @@ from ..physics import CLEARNESS_MIN_SUN_ELEVATION
 from ..model.products import SCENE_DAY_PRODUCT, Product, product_info
 from ..planning.plan import Job, Plan
 from ..planning.provenance import job_product_tags
+from .context import ChunkContext
 from .engine import Engine
 
-__all__ = ["job_graph", "run_job", "JobResult", "chunk_products", "ValueSummary", "FlagSummary",
-           "target_product"]
+__all__ = ["job_graph", "batch_graph", "run_job", "compute_batch", "PendingBatch", "JobResult",
+           "chunk_products", "ValueSummary", "FlagSummary", "target_product"]
 
 
 @dataclass(frozen=True)
@@ -71,19 +76,20 @@ def target_product(job: Job, name: str) -> Product:
 
 
 def chunk_products(job: Job, grid: TargetGrid, window, names: tuple[str, ...], *,
-                   reuse: bool = False) -> dict[str, np.ndarray]:
+                   reuse: bool = False, ctx: ChunkContext | None = None) -> dict[str, np.ndarray]:
     """Every requested product of one chunk window (``reuse``: see :func:`model.kernels.scene_kernel`)."""
+    ctx = ctx or ChunkContext(grid, window)
     arrays = {}
     for s in job.sources.values():
-        arrays.update(s.read_layers(grid, window))
+        arrays.update(ctx.read(s))
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         if job.kind is TimeKind.SCENES:
             p = job.params
             sun = sun_geometry(grid, window, p.time) if _sun_needed(p, grid, window) else None
-            lonlat = grid.lonlat(window) if p.scene_to_day != "none" else None
+            lonlat = ctx.lonlat() if p.scene_to_day != "none" else None
             out = scene_kernel(arrays, sun, lonlat, p, reuse=reuse)
         else:
-            _, lat = grid.lonlat(window)
+            _, lat = ctx.lonlat()
             out = day_kernel(arrays, lat, job.params)
     return {n: out[n] for n in names}
 
@@ -103,18 +109,18 @@ def _sun_needed(p, grid: TargetGrid, window) -> bool:
     return not sun_up_everywhere(grid, window, p.time, min_elevation=CLEARNESS_MIN_SUN_ELEVATION + 1.0)
 
 
-def _chunk_task(job: Job, grid: TargetGrid, window, names, sinks) -> dict:
-    """Compute one chunk, write it (and its overview blocks), return its summary."""
-    products = chunk_products(job, grid, window, names, reuse=True)   # written out below, at once
+def _write_chunk(job: Job, window, products: dict, sinks: dict) -> dict:
+    """Write one chunk's products (and their overview blocks); their summaries."""
     r0, c0 = int(window.row_off), int(window.col_off)
     h, w = int(window.height), int(window.width)
     summary = {}
     for n, a in products.items():
         full, levels = sinks[n]
         full[slice(r0, r0 + h), slice(c0, c0 + w)] = a
-        if target_product(job, n).is_flags:
+        product = target_product(job, n)
+        if product.is_flags:
             blocks = nearest_levels(a, tuple(levels)) if levels else {}
-            bits = target_product(job, n).flags
+            bits = product.flags
             summary[n] = FlagSummary(int(np.count_nonzero(a & bits["out_of_range"])),
                                      int(np.count_nonzero(a & bits["input_missing"])))
         else:
@@ -127,6 +133,22 @@ def _chunk_task(job: Job, grid: TargetGrid, window, names, sinks) -> dict:
     return summary
 
 
+def _batch_task(batch: tuple, grid: TargetGrid, window, shared: frozenset, streams: tuple) -> list[dict]:
+    """One chunk of every date of a batch: compute, write, stream; the summaries, date by date.
+
+    ``batch``: (job, product names, sinks) per date.  The context keeps what is the same for every
+    date; products are written (and streamed) before the next date reuses the kernel's buffers.
+    """
+    ctx = ChunkContext(grid, window, shared)
+    out = []
+    for job, names, sinks in batch:
+        products = chunk_products(job, grid, window, names, reuse=True, ctx=ctx)
+        out.append(_write_chunk(job, window, products, sinks))
+        for stream in streams:
+            stream.add(job, window, products)
+    return out
+
+
 def _merge_summaries(parts: list[dict], names) -> dict:
     out = {}
     for n in names:
@@ -137,16 +159,26 @@ def _merge_summaries(parts: list[dict], names) -> dict:
     return out
 
 
-def job_graph(job: Job, grid: TargetGrid, names: tuple[str, ...], sinks: dict) -> tuple[dict, list]:
-    """The task graph of a job (one task per chunk) and its output keys; computes nothing.
+def batch_graph(batch: tuple, grid: TargetGrid, streams: tuple = ()) -> tuple[dict, list]:
+    """The task graph of a batch of dates (one task per chunk) and its output keys; computes nothing.
 
-    Written out directly: ``dask.delayed`` would traverse and tokenize the job
-    (with its lookup table) once per chunk, which cost more than the chunk's
+    Written out directly: ``dask.delayed`` would traverse and tokenize the jobs
+    (with their lookup tables) once per chunk, which cost more than the chunk's
     arithmetic on small grids.
     """
-    name = f"radledger-{job.kind}-{job.label}-" + tokenize(job.settings_hash, names, grid.identity, grid.chunk)
-    dsk = {(name, k): (_chunk_task, job, grid, win, names, sinks) for k, win in enumerate(grid.windows())}
+    jobs = [job for job, _, _ in batch]
+    common = frozenset.intersection(*(frozenset(j.sources.values()) for j in jobs)) if len(jobs) > 1 \
+        else frozenset()
+    label = f"{jobs[0].kind}-{jobs[0].label}-{jobs[-1].label}"
+    name = f"radledger-{label}-" + tokenize([j.settings_hash for j in jobs], [n for _, n, _ in batch],
+                                             grid.identity, grid.chunk)
+    dsk = {(name, k): (_batch_task, batch, grid, win, common, tuple(streams)) for k, win in enumerate(grid.windows())}
     return dsk, list(dsk)
+
+
+def job_graph(job: Job, grid: TargetGrid, names: tuple[str, ...], sinks: dict) -> tuple[dict, list]:
+    """The task graph of one job (a batch of one date)."""
+    return batch_graph(((job, names, sinks),), grid)
 
 
 @dataclass
@@ -161,38 +193,76 @@ class JobResult:
         return self.job.notes
 
 
-def run_job(plan: Plan, job: Job, engine: Engine, *, overwrite: bool = False) -> JobResult:
-    """Compute and write every product of ``job`` that is not already current."""
-    result = JobResult(job)
-    targets = job.targets()
-    todo = {n: p for n, p in targets.items() if overwrite or not is_current(p, job.settings_hash)}
-    result.skipped = [p for n, p in targets.items() if n not in todo]
-    if not todo:
-        return result
-    names = tuple(todo)
+def _product_files(plan: Plan, job: Job, todo: dict, engine: Engine) -> list[ProductFile]:
     in_task = tuple(f for f in overview_factors(plan.grid.width, plan.grid.height) if plan.grid.chunk % f == 0)
     files = []
-    for n in names:
+    for n, path in todo.items():
         info = target_product(job, n)
-        files.append(ProductFile(final=todo[n], grid=plan.grid, dtype=info.dtype,
+        files.append(ProductFile(final=path, grid=plan.grid, dtype=info.dtype,
                                  tags=job_product_tags(plan.cfg, job, n), band_description=info.long_name,
                                  compression=plan.cfg.output.compression, in_task=in_task,
                                  nodata=info.nodata, categorical=info.is_flags))
+    return files
+
+
+@dataclass
+class PendingBatch:
+    """A computed batch whose products still need their one compression pass (``finish``)."""
+    results: list[JobResult]
+    files: list[list[ProductFile]]
+
+    def finish(self) -> list[JobResult]:
+        try:
+            for result, files in zip(self.results, self.files):
+                result.written = [f.finish() for f in files]
+        except BaseException:
+            self.abort()
+            raise
+        return self.results
+
+    def abort(self) -> None:
+        for files in self.files:
+            for f in files:
+                f.abort()
+
+
+def compute_batch(plan: Plan, jobs: list[Job], engine: Engine, *, overwrite: bool = False,
+                  streams: tuple = ()) -> PendingBatch:
+    """Compute every product of ``jobs`` that is not current into its intermediates (not yet COGs)."""
+    results, files, batch = [], [], []
     try:
-        for f in files:
-            f.create(keep_open=not engine.distributed)
-        sinks = {n: (f.sink(engine.lock(f.intermediate)),
-                     {fac: f.sink(engine.lock(f.level_files[fac]), factor=fac) for fac in f.in_task})
-                 for n, f in zip(names, files)}
-        dsk, keys = job_graph(job, plan.grid, names, sinks)
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", RuntimeWarning)
-            parts = engine.get(dsk, keys, label=f"{job.kind.singular} {job.label}")
-        for f in files:
-            result.written.append(f.finish())
+        for job in jobs:
+            result = JobResult(job)
+            targets = job.targets()
+            todo = {n: p for n, p in targets.items() if overwrite or not is_current(p, job.settings_hash)}
+            result.skipped = [p for n, p in targets.items() if n not in todo]
+            results.append(result)
+            job_files = _product_files(plan, job, todo, engine)
+            files.append(job_files)
+            if not todo:
+                continue
+            for f in job_files:
+                f.create(keep_open=not engine.distributed)
+            sinks = {n: (f.sink(engine.lock(f.intermediate)),
+                         {fac: f.sink(engine.lock(f.level_files[fac]), factor=fac) for fac in f.in_task})
+                     for n, f in zip(todo, job_files)}
+            batch.append((job, tuple(todo), sinks))
+        if batch:
+            dsk, keys = batch_graph(tuple(batch), plan.grid, streams)
+            first, last = batch[0][0], batch[-1][0]
+            label = f"{first.kind.singular} {first.label}" + (f" .. {last.label}" if last is not first else "")
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore", RuntimeWarning)
+                parts = engine.get(dsk, keys, label=label)
+            by_job = {id(job): [p[i] for p in parts] for i, (job, _, _) in enumerate(batch)}
+            for result, (job, names, _) in zip((r for r in results if id(r.job) in by_job), batch):
+                result.summary = _merge_summaries(by_job[id(job)], names)
     except BaseException:
-        for f in files:
-            f.abort()
+        PendingBatch(results, files).abort()
         raise
-    result.summary = _merge_summaries(parts, names)
-    return result
+    return PendingBatch(results, files)
+
+
+def run_job(plan: Plan, job: Job, engine: Engine, *, overwrite: bool = False) -> JobResult:
+    """Compute and write every product of ``job`` that is not already current."""
+    return compute_batch(plan, [job], engine, overwrite=overwrite).finish()[0]

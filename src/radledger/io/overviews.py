@@ -13,7 +13,7 @@ would invent flags).
 
 from __future__ import annotations
 
-import numba
+from ..physics._jit import jit
 import numpy as np
 
 __all__ = ["overview_factors", "nearest_levels", "mean_levels", "reduce_level", "level_shape", "mean_pyramid"]
@@ -35,7 +35,7 @@ def level_shape(h: int, w: int, f: int) -> tuple[int, int]:
     return -(-h // f), -(-w // f)
 
 
-@numba.njit(nogil=True, cache=True)
+@jit(nogil=True, cache=True)
 def _halve_mean(s, n):
     """Sums and counts of 2 x 2 cells (a ragged last row/column counts what it has)."""
     h, w = s.shape
@@ -49,7 +49,7 @@ def _halve_mean(s, n):
     return s2, n2
 
 
-@numba.njit(nogil=True, cache=True)
+@jit(nogil=True, cache=True)
 def _mean_of(s, n):
     out = np.empty(s.shape, np.float32)
     for i in range(s.shape[0]):
@@ -62,7 +62,7 @@ def mean_levels(block: np.ndarray, factors) -> dict[int, np.ndarray]:
     return mean_pyramid(block, factors)[0]
 
 
-@numba.njit(nogil=True, cache=True)
+@jit(nogil=True, cache=True)
 def _halve_with_stats(a):
     """2 x 2 sums and counts of the non-NaN pixels of ``a``, plus min, max, sum, count of its finite ones."""
     h, w = a.shape

@@ -26,6 +26,7 @@ from ..errors import GridError, InputError
 from ..grid import TargetGrid
 from .gdalenv import gdal_env
 from .paths import gdal_path
+from .resample import FAST_RESAMPLING, warp_for
 
 __all__ = ["LayerSource", "FileEncoding", "file_encoding", "open_dataset", "check_overlap", "read_failed",
            "short_error"]
@@ -55,20 +56,24 @@ class LayerSource:
     def gdal_path(self) -> str:
         return gdal_path(self.path)
 
-    def read_layers(self, grid: TargetGrid, window: Window) -> dict[str, np.ndarray]:
-        return {self.layer: self.read(grid, window)}
+    def read_layers(self, grid: TargetGrid, window: Window, warps: dict | None = None) -> dict[str, np.ndarray]:
+        return {self.layer: self.read(grid, window, warps)}
 
-    def read(self, grid: TargetGrid, window: Window) -> np.ndarray:
-        """The decoded float32 values of ``window`` of ``grid``; NaN = missing/off-footprint."""
+    def read(self, grid: TargetGrid, window: Window, warps: dict | None = None) -> np.ndarray:
+        """The decoded float32 values of ``window`` of ``grid``; NaN = missing/off-footprint.
+
+        ``warps``: a per-task memo of resampling geometry (see io/resample.py), so a task reading
+        many dates of sources on one coarser grid computes where its pixels fall only once.
+        """
         with gdal_env():
             ds = open_dataset(self.gdal_path, self.path)
             try:
-                raw = self._read_raw(ds, grid, window)
+                raw = self._read_raw(ds, grid, window, warps)
             except RasterioIOError as exc:
                 raise read_failed(self.path, exc) from None
         return self._decode(raw)
 
-    def _read_raw(self, ds, grid: TargetGrid, window: Window) -> np.ndarray:
+    def _read_raw(self, ds, grid: TargetGrid, window: Window, warps: dict | None = None) -> np.ndarray:
         h, w = int(window.height), int(window.width)
         nodata = self.nodata
         if grid.same_as(ds.crs, ds.transform, ds.width, ds.height):
@@ -76,6 +81,16 @@ class LayerSource:
             if nodata is not None:
                 raw = np.where(raw == np.float32(nodata), np.float32(np.nan), raw)
             return raw
+        if self.resampling in FAST_RESAMPLING:
+            warp = warp_for(warps, grid, window, ds.crs, ds.transform, (ds.height, ds.width))
+            if warp.upsampling:
+                r0, r1, c0, c1 = warp.bounds()
+                if r1 <= r0 or c1 <= c0:
+                    return np.full((h, w), np.nan, dtype=np.float32)
+                slab = ds.read(1, window=Window(c0, r0, c1 - c0, r1 - r0)).astype(np.float32)
+                if nodata is not None:
+                    slab[slab == np.float32(nodata)] = np.nan
+                return warp.resample(slab, r0, c0, self.resampling)
         out = np.full((h, w), np.nan, dtype=np.float32)
         if not self._overlaps(ds, grid, window):
             return out

@@ -25,6 +25,7 @@ from rasterio.windows import Window
 
 from ..errors import InputError
 from ..grid import TargetGrid
+from .resample import FAST_RESAMPLING, warp_for
 
 __all__ = ["StackInfo", "StackSource", "stack_info", "is_stack_path"]
 
@@ -182,12 +183,23 @@ class StackSource:
     def raw(self) -> bool:
         return self.scale is not None or self.offset is not None or self.nodata is not None
 
-    def read_layers(self, grid: TargetGrid, window: Window) -> dict[str, np.ndarray]:
-        return {self.layer: self.read(grid, window)}
+    def read_layers(self, grid: TargetGrid, window: Window, warps: dict | None = None) -> dict[str, np.ndarray]:
+        return {self.layer: self.read(grid, window, warps)}
 
-    def read(self, grid: TargetGrid, window: Window) -> np.ndarray:
-        """The decoded float32 values of ``window`` of ``grid``; NaN = missing or off the stack."""
+    def read(self, grid: TargetGrid, window: Window, warps: dict | None = None) -> np.ndarray:
+        """The decoded float32 values of ``window`` of ``grid``; NaN = missing or off the stack.
+
+        ``warps``: a per-task memo of :class:`~radledger.io.resample.WindowWarp` (the geometry of
+        this stack's grid on the window, computed once for every date a task reads).
+        """
         h, w = int(window.height), int(window.width)
+        if self.resampling in FAST_RESAMPLING:
+            warp = warp_for(warps, grid, window, self.info.crs, self.info.transform, self.info.shape)
+            if warp.upsampling:
+                r0, r1, c0, c1 = warp.bounds()
+                if r1 <= r0 or c1 <= c0:
+                    return np.full((h, w), np.nan, dtype=np.float32)
+                return self._finish(warp.resample(self._slab(r0, r1, c0, c1), r0, c0, self.resampling))
         out = np.full((h, w), np.nan, dtype=np.float32)
         cut = self._slab_window(grid, window)
         if cut is None:
@@ -203,6 +215,9 @@ class StackSource:
                   src_nodata=np.nan, dst_transform=grid.window_transform(window), dst_crs=grid.crs,
                   dst_nodata=np.nan, resampling=Resampling[self.resampling], init_dest_nodata=True,
                   num_threads=1)
+        return self._finish(out)
+
+    def _finish(self, out: np.ndarray) -> np.ndarray:
         if self.factor != 1:
             out *= np.float32(self.factor)
         if self.shift != 0:

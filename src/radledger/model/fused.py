@@ -21,7 +21,7 @@ from __future__ import annotations
 
 import threading
 
-import numba
+from ..physics._jit import jit
 import numpy as np
 
 from ..physics.constants import STEFAN_BOLTZMANN
@@ -112,7 +112,7 @@ def _loop(inputs, classes, lut, unknown_value, outputs, limits, sigma, k):
     return unknown
 
 
-_loop_jit = numba.njit(nogil=True, cache=True, error_model="numpy")(_loop)
+_loop_jit = jit(nogil=True, cache=True, error_model="numpy")(_loop)
 
 
 _local = threading.local()

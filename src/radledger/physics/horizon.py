@@ -24,7 +24,7 @@ from __future__ import annotations
 
 import math
 
-import numba
+from ._jit import jit
 import numpy as np
 
 __all__ = [
@@ -65,7 +65,7 @@ _SEGMENT = 16
 _RADIUS = _SEGMENT // 2 + 1
 
 
-@numba.njit(nogil=True, cache=True)
+@jit(nogil=True, cache=True)
 def _window_max(z, radius):
     """Largest value within +-radius rows and columns (NaN ignored, -inf if none)."""
     rows, cols = z.shape
@@ -88,7 +88,7 @@ def _window_max(z, radius):
     return out
 
 
-@numba.njit(nogil=True, cache=True)
+@jit(nogil=True, cache=True)
 def _ray_max_tangent(zp, zwin, r, c, step, drow, dcol, nsteps, zmax, floor, stop):
     """Largest (z_k - z_0) / d_k along one ray (-inf if no sample).
 
@@ -150,7 +150,7 @@ def _ray_max_tangent(zp, zwin, r, c, step, drow, dcol, nsteps, zmax, floor, stop
     return best
 
 
-@numba.njit(nogil=True, cache=True)
+@jit(nogil=True, cache=True)
 def _horizons_kernel(zp, zwin, steps, drows, dcols, nsteps, zmax, out):
     rows, cols = zp.shape[0] - 1, zp.shape[1] - 1
     for a in range(steps.shape[0]):
@@ -166,7 +166,7 @@ def _horizons_kernel(zp, zwin, steps, drows, dcols, nsteps, zmax, out):
                 out[a, r, c] = math.degrees(math.atan(t))
 
 
-@numba.njit(nogil=True, cache=True)
+@jit(nogil=True, cache=True)
 def _shadow_kernel(zp, zwin, step, drow, dcol, nsteps, zmax, tan_sun, out):
     rows, cols = zp.shape[0] - 1, zp.shape[1] - 1
     for r in range(rows):

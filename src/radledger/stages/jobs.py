@@ -1,29 +1,86 @@
-"""Stage 1: every scene and day, each product written as soon as it is complete."""
+"""Stage 1: every scene and day, in batches of dates; each product written as soon as it is complete.
+
+Dates are computed in batches (one task per chunk handles every date of a batch, so what is the
+same for all of them is done once per chunk); while one batch's products get their single
+compression pass into COGs, in a background thread, the next batch computes.  Both cores stay
+busy, and each batch's products appear as soon as its compression is done.
+"""
 
 from __future__ import annotations
 
+from concurrent.futures import ThreadPoolExecutor
+
 from ..errors import UnknownClassError
 from ..execution.engine import Engine
-from ..execution.graph import FlagSummary, JobResult, run_job
+from ..execution.graph import FlagSummary, JobResult, compute_batch
 from ..io.tables import read_emissivity_table
+from ..kinds import TimeKind
 from ..physics.emissivity import missing_classes
 from ..planning.checks import land_cover_classes
-from ..planning.plan import Plan, unknown_classes_error
+from ..planning.plan import Job, Plan, unknown_classes_error
 
-__all__ = ["run_jobs"]
+__all__ = ["run_jobs", "batches", "BATCH_DATES"]
+
+#: dates computed together by one chunk task: what is the same for every date (static layers,
+#: coordinates, resampling geometry) is done once per batch; each batch's products appear together.
+#: Days share more (their weather grids) and are cheaper than scenes, so their batches are longer.
+BATCH_DATES = {TimeKind.DAYS: 8, TimeKind.SCENES: 4}
 
 
-def run_jobs(plan: Plan, engine: Engine, *, overwrite: bool) -> list[JobResult]:
-    """Run every job of the plan in order; each result is reported as it finishes."""
-    results = []
-    for job in plan.jobs:
-        try:
-            r = run_job(plan, job, engine, overwrite=overwrite)
-        except UnknownClassError:
-            raise _name_all_classes(plan) from None
-        results.append(r)
-        engine.events.job_done(r)
-        _warn_lost_pixels(r, plan, engine)
+def batches(jobs: list[Job], size: dict = BATCH_DATES) -> list[list[Job]]:
+    """Consecutive jobs of one kind, at most ``size[kind]`` per batch."""
+    out: list[list[Job]] = []
+    for job in jobs:
+        if out and out[-1][0].kind is job.kind and len(out[-1]) < size[job.kind]:
+            out[-1].append(job)
+        else:
+            out.append([job])
+    return out
+
+
+def run_jobs(plan: Plan, engine: Engine, *, overwrite: bool, streams: tuple = ()) -> list[JobResult]:
+    """Run every job of the plan; each result is reported (in plan order) as its products are written."""
+    results: list[JobResult] = []
+    # the compression of one batch overlaps the computation of the next (locally; a cluster's workers
+    # write the intermediates, and the client compresses them in turn)
+    pool = ThreadPoolExecutor(1, thread_name_prefix="radledger-cog") if not engine.distributed else None
+    previous = pending = None
+
+    def collect(done: list[JobResult]) -> None:
+        for r in done:
+            results.append(r)
+            engine.events.job_done(r)
+            _warn_lost_pixels(r, plan, engine)
+
+    try:
+        for batch in batches(plan.jobs):
+            try:
+                pending = compute_batch(plan, batch, engine, overwrite=overwrite, streams=streams)
+            except UnknownClassError:
+                raise _name_all_classes(plan) from None
+            if previous is not None:
+                collect(previous.result())
+                previous = None
+            if pool is None:
+                collect(pending.finish())
+            else:
+                previous = pool.submit(pending.finish)
+            pending = None
+        if previous is not None:
+            collect(previous.result())
+            previous = None
+    except BaseException:
+        if pending is not None:       # computed but not handed to the compression: its temporaries go
+            pending.abort()
+        raise
+    finally:
+        if previous is not None:      # interrupted: the batch being compressed is complete - let it finish
+            try:
+                previous.result()
+            except BaseException:     # noqa: BLE001 - its own failure removed its temporaries
+                pass
+        if pool is not None:
+            pool.shutdown(wait=True)
     return results
 
 
