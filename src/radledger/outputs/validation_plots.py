@@ -69,8 +69,9 @@ def write_scatter(pairs: list[Pair], stats: Agreement, kind: str, path: str | Pa
     lo, hi = lo - pad, hi + pad
     ax.plot([lo, hi], [lo, hi], color="0.35", linestyle="--", linewidth=1.0, label="1:1", zorder=2)
     if np.isfinite(stats.slope):
+        line = f"least squares: modelled = {stats.slope:.3g} observed {stats.intercept:+.3g}"
         ax.plot([lo, hi], [stats.slope * lo + stats.intercept, stats.slope * hi + stats.intercept], color="crimson",
-                linewidth=1.4, label=f"least squares: {stats.slope:.3g} x {stats.intercept:+.3g}", zorder=2)
+                linewidth=1.4, label=line, zorder=2)
     ax.set_xlim(lo, hi)
     ax.set_ylim(lo, hi)
     ax.set_aspect("equal", adjustable="box")
