@@ -187,3 +187,33 @@ def test_a_station_without_a_value_drops_out_of_that_date_only(tmp_path):
             counts[date] = ds.tags()["stations_used"].split(",")
     assert "st07" not in counts[DATES[0]] and len(counts[DATES[0]]) == 34
     assert "st07" in counts[DATES[1]] and len(counts[DATES[1]]) == 35
+
+
+def test_a_scene_takes_the_rows_at_its_time(tmp_path):
+    from scenario import make_scenario
+
+    scn = make_scenario(tmp_path, shape=(64, 64), chunk=64, holes=False)    # one scene at 2026-07-14T18:10Z
+    to_geo = Transformer.from_crs(CRS_UTM, "EPSG:4326", always_xy=True)
+    rng = np.random.default_rng(3)
+    x = rng.uniform(300000, 300000 + 64 * 30, 8)
+    y = rng.uniform(4280000 - 64 * 30, 4280000, 8)
+    z = rng.uniform(1400, 2200, 8)
+    lon, lat = to_geo.transform(x, y)
+    lines = ["station,lon,lat,elevation,time,ta_c"]
+    for k in range(8):   # invented: 24 degC at 1500 m and the ICAO lapse rate (common practice)
+        ta = 24.0 + LAPSE * (z[k] - 1500)
+        lines.append(f"s{k},{lon[k]:.8f},{lat[k]:.8f},{z[k]:.1f},2026-07-14T18:10:00Z,{ta:.4f}")
+        lines.append(f"s{k},{lon[k]:.8f},{lat[k]:.8f},{z[k]:.1f},2026-07-14T19:10:00Z,{ta + 1:.4f}")
+    (tmp_path / "stations.csv").write_text("\n".join(lines) + "\n")
+    scn.write_config(stations={"path": "stations.csv", "columns": {"air_temperature": "ta_c"}, "method": "idw"},
+                     **{"scenes.0.air_temperature": "stations"})
+    run_config(load_config(scn.config))
+    out = tmp_path / "out"
+    gridded = read(out / "weather" / "air_temperature_20260714T1810.tif")
+    dem = scn.truth["elevation"]
+    # a field exactly linear in elevation is reproduced from the 18:10 rows (not the 19:10 ones)
+    np.testing.assert_allclose(gridded, 24.0 + 273.15 + LAPSE * (dem - 1500), atol=2e-3)
+    with open(out / "weather" / "cross_validation.csv") as handle:
+        (row,) = list(csv.DictReader(handle))
+    assert row["time"] == "2026-07-14T18:10Z" and row["variable"] == "air_temperature" and row["units"] == "K"
+    assert (out / "scenes" / "net_radiation_20260714T1810.tif").exists()

@@ -52,18 +52,15 @@ class StationTable:
     date: tuple[dt.date, ...]          # every row's date (a timed row: its UTC date)
     time: tuple[dt.datetime | None, ...]   # UTC; None on daily rows
     values: dict[str, np.ndarray] = field(default_factory=dict)   # column -> float values, NaN = missing
+    index: dict = field(default_factory=dict, repr=False)           # date or minute -> its row indices
 
     def __len__(self) -> int:
         return len(self.station)
 
     def rows_on(self, when) -> np.ndarray:
         """Indices of the daily rows of ``when`` (a date) or the rows at ``when`` (a UTC time, to the minute)."""
-        if isinstance(when, dt.datetime):
-            stamp = _minute(when)
-            return np.array([i for i, t in enumerate(self.time) if t is not None and _minute(t) == stamp],
-                            dtype=int)
-        return np.array([i for i, (d, t) in enumerate(zip(self.date, self.time)) if t is None and d == when],
-                        dtype=int)
+        key = _minute(when) if isinstance(when, dt.datetime) else when
+        return np.array(self.index.get(key, ()), dtype=int)
 
     def kinds(self) -> set[str]:
         """``days`` when the table has daily rows, ``scenes`` when it has timed rows."""
@@ -264,9 +261,12 @@ def read_station_table(path: str | os.PathLike, *, crs: str, grid_crs, values: d
         when.append((day, t))
     lon_a, lat_a = np.array(lon), np.array(lat)
     x, y = _to_grid(reader, numbers, station, lon_a, lat_a, crs, grid_crs)
+    index: dict = {}
+    for k, (day, t) in enumerate(when):
+        index.setdefault(_minute(t) if t is not None else day, []).append(k)
     return StationTable(path=path, line=np.array(numbers), station=tuple(station), lon=lon_a, lat=lat_a, x=x, y=y,
                         elevation=np.array(elev) if elev else None, date=tuple(d for d, _ in when),
-                        time=tuple(t for _, t in when), values=out)
+                        time=tuple(t for _, t in when), values=out, index=index)
 
 
 def _to_grid(reader: _Reader, numbers, station, lon, lat, crs, grid_crs):

@@ -27,20 +27,21 @@ SCENE_TOLERANCE = dt.timedelta(minutes=1)
 _SHOWN = 4   # dates named per warning line
 
 
-def _products(plan: Plan) -> dict[TimeKind, list[tuple[object, Path, Path | None]]]:
-    """(time or date, net_radiation path, quality path) of every finished product, per kind."""
-    out: dict[TimeKind, list] = {TimeKind.SCENES: [], TimeKind.DAYS: []}
+def _products(plan: Plan) -> dict:
+    """(time or date, net_radiation path, quality path) of every finished product, per kind (and days by date)."""
+    out: dict = {TimeKind.SCENES: [], TimeKind.DAYS: []}
     for job in plan.jobs:
         path = job.outputs.get("net_radiation")
         if path is not None and path.exists():
             out[job.kind].append((job.when if job.kind is TimeKind.SCENES else job.day, path,
                                   job.outputs.get("quality")))
+    out["by_day"] = {p[0]: p for p in out[TimeKind.DAYS]}
     return out
 
 
 def _match(products, kind: TimeKind, when):
     if kind is TimeKind.DAYS:
-        return next((p for p in products[kind] if p[0] == when), None)
+        return products["by_day"].get(when)
     near = [p for p in products[kind] if abs(p[0] - when) <= SCENE_TOLERANCE]
     return min(near, key=lambda p: abs(p[0] - when)) if near else None
 
