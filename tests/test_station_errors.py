@@ -170,3 +170,13 @@ def test_stations_are_not_a_static_input_nor_for_satellite_layers(scn):
     scn.config.write_text(yaml.safe_dump(cfg))
     text = _messages(scn.config)
     assert "days[0].albedo" in text and "cannot be gridded from stations" in text
+
+
+def test_station_values_in_other_units_than_declared(scn, capsys):
+    _config(scn, **{"layers.air_temperature.units": "K"})     # the table holds degC
+    code, err = _run(capsys, scn)
+    assert code == 2 and "Traceback" not in err
+    for column in ("tmax_c", "tmin_c"):      # one line per column, then the count
+        assert f"stations.csv: column {column}" in err and "look like degC" in err, err
+    assert "layers.air_temperature.units: degC" in err and "2 problem(s); nothing was written" in err
+    assert not (scn.folder / "out").exists() or not [p for p in (scn.folder / "out").rglob("*") if p.is_file()]

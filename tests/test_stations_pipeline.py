@@ -217,3 +217,14 @@ def test_a_scene_takes_the_rows_at_its_time(tmp_path):
         (row,) = list(csv.DictReader(handle))
     assert row["time"] == "2026-07-14T18:10Z" and row["variable"] == "air_temperature" and row["units"] == "K"
     assert (out / "scenes" / "net_radiation_20260714T1810.tif").exists()
+
+
+def test_check_reads_the_tables_and_writes_nothing(tmp_path, capsys):
+    from radledger.cli import main
+
+    scn = make_station_scenario(tmp_path, towers=[["t1", "-118.1", "38.8", DATES[0], "14.0"]])
+    assert main(["check", str(scn.config)]) == 0
+    out = capsys.readouterr().out
+    assert f"weather/air_temperature_max_{STAMP[DATES[0]]}.tif [K]" in out
+    assert "check: config and inputs OK" in out
+    assert not (tmp_path / "out").exists() or not [p for p in (tmp_path / "out").rglob("*") if p.is_file()]
