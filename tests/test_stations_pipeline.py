@@ -225,6 +225,6 @@ def test_check_reads_the_tables_and_writes_nothing(tmp_path, capsys):
     scn = make_station_scenario(tmp_path, towers=[["t1", "-118.1", "38.8", DATES[0], "14.0"]])
     assert main(["check", str(scn.config)]) == 0
     out = capsys.readouterr().out
-    assert f"weather/air_temperature_max_{STAMP[DATES[0]]}.tif [K]" in out
+    assert f"weather/air_temperature_max_{STAMP[DATES[0]]}.tif" in out
     assert "check: config and inputs OK" in out
     assert not (tmp_path / "out").exists() or not [p for p in (tmp_path / "out").rglob("*") if p.is_file()]
