@@ -215,7 +215,7 @@ def test_a_scene_takes_the_rows_at_its_time(tmp_path):
     np.testing.assert_allclose(gridded, 24.0 + 273.15 + LAPSE * (dem - 1500), atol=2e-3)
     with open(out / "weather" / "cross_validation.csv") as handle:
         (row,) = list(csv.DictReader(handle))
-    assert row["time"] == "2026-07-14T18:10Z" and row["variable"] == "air_temperature" and row["units"] == "K"
+    assert row["time"] == "2026-07-14T18:10:00Z" and row["variable"] == "air_temperature" and row["units"] == "K"
     assert (out / "scenes" / "net_radiation_20260714T1810.tif").exists()
 
 

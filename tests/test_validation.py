@@ -21,7 +21,7 @@ from radledger.execution.events import RunEvents
 from radledger.runner import run_config
 
 from scenario import CRS_UTM, make_scenario
-from station_fixture import DATES, N, RES, X0, Y0, make_station_scenario
+from station_fixture import DATES, X0, Y0, make_station_scenario
 
 TO_GEO = Transformer.from_crs(CRS_UTM, "EPSG:4326", always_xy=True)
 # invented towers: map position (grid CRS) and observed daily net radiation [MJ m-2 day-1] per date

@@ -24,7 +24,7 @@ from ..outputs.weather import (WEATHER_NAMES, CrossValidationRow, gridding_tags,
                                write_cross_validation)
 from ..planning.plan import Plan
 from ..planning.provenance import product_tags
-from ..planning.stations import WeatherGrid, weather_grids, when_text
+from ..planning.stations import WeatherGrid, weather_grids
 from ..stations.gridding import CrossValidation, fit_field, leave_one_out
 
 __all__ = ["run_weather", "CROSS_VALIDATION_FILE"]
@@ -69,7 +69,7 @@ def write_weather_grid(plan: Plan, g: WeatherGrid, engine: Engine, *, field=None
     cv = _cross_validate(g) or _NoCrossValidation()
     long_name, standard_name = WEATHER_NAMES[g.layer]
     product = Product(g.layer, f"{long_name} gridded from stations", g.units, standard_name)
-    time = when_text(g.when).replace("Z", ":00Z") if isinstance(g.when, dt.datetime) else g.when.isoformat()
+    time = g.when.strftime("%Y-%m-%dT%H:%M:%SZ") if isinstance(g.when, dt.datetime) else g.when.isoformat()
     tags = product_tags(product, method=f"stations: {g.method} of the residuals of a linear trend in elevation "
                                         f"and position, the trend restored with the DEM",
                         time=time, time_kind=str(g.kind), inputs=f"{g.table} column {g.column}",
@@ -104,6 +104,7 @@ def _cv_row(g: WeatherGrid) -> CrossValidationRow:
     when = g.when
     return CrossValidationRow(
         variable=g.layer, date=(when.date() if isinstance(when, dt.datetime) else when).isoformat(),
-        time=when_text(when) if isinstance(when, dt.datetime) else "", method=g.method, units=g.units,
+        time=when.strftime("%Y-%m-%dT%H:%M:%SZ") if isinstance(when, dt.datetime) else "", method=g.method,
+        units=g.units,
         n=int(_float(tags.get("cv_n")) if tags.get("cv_n") else 0), bias=_float(tags.get("cv_bias")),
         rmse=_float(tags.get("cv_rmse")))
