@@ -643,7 +643,9 @@ def main():
                   extra=meta)
 
     write_subbasins()
-    print(f"wrote {len(list(OUT.glob('*.tif')))} GeoTIFFs and subbasins.geojson to {OUT}")
+    write_station_tables()
+    print(f"wrote {len(list(OUT.glob('*.tif')))} GeoTIFFs, subbasins.geojson, stations.csv and "
+          f"towers.csv to {OUT}")
 
 
 def cloud_density(x, y, seed):
@@ -754,6 +756,145 @@ def write_subbasins():
               description=f"{NOTE}; {SCENARIO}",
               features=feats)
     (OUT / "subbasins.geojson").write_text(json.dumps(fc, indent=1) + "\n")
+
+
+# --------------------------------------------------------------------------
+# Station tables: an invented weather-station network and two invented
+# net-radiation towers. Written after the tiles (and read back from them for
+# the towers), with their own seeds, so the tiles do not change.
+# --------------------------------------------------------------------------
+STATION_SEED = SEED + 7000
+STATION_NAMES = ["glasspeak-cirque", "upper-tarn", "north-spur", "cedar-bench", "south-fork",
+                 "lantern-inflow", "lantern-dam", "gorge-rim", "aspen-flat", "harrowgate",
+                 "pivot-row", "east-fan", "alkali-flat", "ridge-saddle", "basin-rim-ne",
+                 "sage-bench"]
+# (name, land-cover class, near x, y in km from the fine grid's lower-left corner)
+TOWER_SITES = [("tower-sage", 20, 29.5, 13.0), ("tower-meadow", 30, 14.5, 16.5)]
+SIGMA_INST = 5.670374419e-8      # W m-2 K-4
+SIGMA_DAY = 4.903e-9             # MJ K-4 m-2 day-1
+
+
+def station_sites():
+    """16 stations on a jittered 4 x 4 layout over the fine extent plus 1 km."""
+    r = np.random.default_rng(STATION_SEED)
+    gx = np.linspace(X0 + 3000, X1 - 3000, 4)
+    gy = np.linspace(Y1 + 3000, Y0 - 3000, 4)
+    sx, sy = (a.ravel() for a in np.meshgrid(gx, gy))
+    sx = np.clip(sx + r.uniform(-3500, 3500, sx.size), X0 - 1000, X1 + 1000)
+    sy = np.clip(sy + r.uniform(-3000, 3000, sy.size), Y1 - 1000, Y0 + 1000)
+    sz, _ = terrain(sx, sy)
+    return sx, sy, sz
+
+
+def _rs_cell(x, y):
+    col = np.clip(np.floor((np.asarray(x) - RS_X0) / RS_RES).astype(int), 0, RS_NCOL - 1)
+    row = np.clip(np.floor((RS_Y0 - np.asarray(y)) / RS_RES).astype(int), 0, RS_NROW - 1)
+    return row, col
+
+
+def daily_weather_at(date, x, y, z):
+    """The daily fields of main() at points: tmax, tmin (degC), ea (hPa), rs (MJ m-2 day-1)."""
+    k = list(DAILY).index(date)
+    p = DAILY[date]
+    dseed = SEED + 1000 + 10 * k
+    wf = wavefield(x, y, dseed, lmin=15000, lmax=60000)
+    dtr = np.clip(p["dtr"] + 1.5 * np.clip((2000 - z) / 500, -1, 1) + 0.4 * wf, 10.0, 18.0)
+    tmax = p["tmax"] - LAPSE * (z - 1500) + 0.5 * wf + 0.4 * (x - 300000) / 20000
+    tmin = tmax - dtr
+    ea = p["ea"] * np.exp(-(z - 1500) / 3600) * (1 + 0.05 * wavefield(x, y, dseed + 1, lmin=15000, lmax=60000))
+    ea = np.minimum(ea, 0.98 * esat_hpa(tmin))
+    _, lat = TO_GEO.transform(x, y)
+    rso = (0.75 + 2e-5 * z) * daily_ra(date, lat)
+    conv = np.clip((z - 1800) / 1200, 0, 1)
+    cloudf = p["cloud"] * (0.6 + 0.8 * conv + 0.3 * wavefield(x, y, dseed + 2, lmin=6000, lmax=30000))
+    if date == CLOUDY_SCENE:
+        trans = coarse_cloud_transmission(SEED + 100 * (SCENE_DATES.index(CLOUDY_SCENE) + 1))
+        cloudf = cloudf + 0.35 * (1 - trans[_rs_cell(x, y)])
+    rs = rso * 0.92 * (1 - np.clip(cloudf, 0.0, 0.35))
+    return tmax, tmin, ea, rs, rso
+
+
+def _sample(name, x, y, scale=1.0, nodata=None):
+    with rasterio.open(OUT / name) as ds:
+        row, col = ds.index(x, y)
+        v = float(ds.read(1, window=((row, row + 1), (col, col + 1)))[0, 0])
+    return np.nan if nodata is not None and v == nodata else v * scale
+
+
+def tower_sites():
+    """Each tower at a pixel of its land-cover class near its nominal site (12 m east, 7 m north of the centre)."""
+    with rasterio.open(OUT / "land_cover.tif") as ds:
+        lc = ds.read(1)
+    fx, fy = cell_centres(FINE_TRANSFORM, NCOL, NROW)
+    sites = []
+    for name, cls, xk, yk in TOWER_SITES:
+        d = np.hypot(fx - (X0 + xk * 1000), fy - (Y1 + yk * 1000))
+        d[lc != cls] = np.inf
+        i = np.unravel_index(np.argmin(d), d.shape)
+        sites.append((name, float(fx[i]) + 12.0, float(fy[i]) + 7.0))
+    return sites
+
+
+def tower_records(r):
+    """Invented net-radiometer records: daily totals and values at the overpasses, from the tiles plus noise.
+
+    A radiometer sees its own footprint, not a 60 m pixel: the values carry a few per cent of
+    invented bias and noise.
+    """
+    rows = []
+    for name, x, y in tower_sites():
+        z, _ = terrain(np.array([x]), np.array([y]))
+        lon, lat = TO_GEO.transform(x, y)
+        albedo = np.nanmean([_sample(f"albedo_{ymd(d)}.tif", x, y, 0.001, 32767) for d in SCENE_DATES])
+        for date in DAILY:
+            tmax, tmin, ea, rs, rso = (float(v[0]) for v in daily_weather_at(date, np.array([x]),
+                                                                            np.array([y]), z))
+            rnl = (SIGMA_DAY * ((tmax + 273.15) ** 4 + (tmin + 273.15) ** 4) / 2
+                   * (0.34 - 0.14 * np.sqrt(ea / 10)) * (1.35 * min(rs / rso, 1.0) - 0.35))
+            rn = ((1 - albedo) * rs - rnl) * 0.97 + r.normal(0, 0.35)
+            rows.append([name, f"{lon:.6f}", f"{lat:.6f}", date, "", f"{rn:.2f}"])
+        for k, date in enumerate(SCENE_DATES):
+            alb = _sample(f"albedo_{ymd(date)}.tif", x, y, 0.001, 32767)
+            ts = _sample(f"lst_{ymd(date)}.tif", x, y, 0.02, 0)
+            rs = _sample(f"rs_{ymd(date)}.tif", x, y)
+            wff = wavefield(np.array([x]), np.array([y]), SEED + 100 * (k + 1) + 1, lmin=15000, lmax=60000)[0]
+            ta = SCENE_T1500[date] - LAPSE * (z[0] - 1500) + 0.6 * wff + 0.4 * (x - 300000) / 20000 + 273.15
+            ea = SCENE_EA1500[date] * np.exp(-(z[0] - 1500) / 3600)
+            alb = albedo if np.isnan(alb) else alb
+            ts = ta + 12.0 if np.isnan(ts) else ts
+            eps_sky = 1.24 * (ea / ta) ** (1 / 7)         # Brutsaert (1975), ea in hPa
+            rn = (1 - alb) * rs - 0.97 * SIGMA_INST * (ts ** 4 - eps_sky * ta ** 4)
+            rn = rn * 0.97 + r.normal(0, 12.0)
+            rows.append([name, f"{lon:.6f}", f"{lat:.6f}", "", f"{date}T18:20:00Z", f"{rn:.1f}"])
+    return rows
+
+
+def write_station_tables():
+    r = np.random.default_rng(STATION_SEED + 1)
+    sx, sy, sz = station_sites()
+    lon, lat = TO_GEO.transform(sx, sy)
+    lines = ["# " + NOTE + "; " + SCENARIO,
+             "# daily weather at invented stations: tmax_c, tmin_c [degC], ea_hpa [hPa], rs_mj [MJ m-2 day-1]",
+             "station,lon,lat,elevation,date,tmax_c,tmin_c,ea_hpa,rs_mj"]
+    blanks = {(5, "2026-07-18", 0), (11, "2026-08-11", 3)}   # a sensor down for a day: left empty
+    for date in DAILY:
+        tmax, tmin, ea, rs, _ = daily_weather_at(date, sx, sy, sz)
+        tmax = tmax + r.normal(0, 0.3, sx.size)
+        tmin = tmin + r.normal(0, 0.3, sx.size)
+        ea = ea * (1 + r.normal(0, 0.02, sx.size))
+        rs = rs * (1 + r.normal(0, 0.02, sx.size))
+        for i, name in enumerate(STATION_NAMES):
+            values = [f"{tmax[i]:.1f}", f"{tmin[i]:.1f}", f"{ea[i]:.2f}", f"{rs[i]:.2f}"]
+            for k in range(4):
+                if (i, date, k) in blanks:
+                    values[k] = ""
+            lines.append(f"{name},{lon[i]:.5f},{lat[i]:.5f},{sz[i]:.0f},{date}," + ",".join(values))
+    (OUT / "stations.csv").write_text("\n".join(lines) + "\n")
+    towers = ["# " + NOTE + "; " + SCENARIO,
+              "# invented net radiometers: daily totals [MJ m-2 day-1] (date) and values at the overpass [W m-2] (time, UTC)",
+              "station,lon,lat,date,time,net_radiation"]
+    towers += [",".join(row) for row in tower_records(r)]
+    (OUT / "towers.csv").write_text("\n".join(towers) + "\n")
 
 
 if __name__ == "__main__":

@@ -1,8 +1,8 @@
 """``radledger run``: the stages a config asks for, in dependency order.
 
-scenes and days (each product written as soon as it is complete) ->
+weather grids from stations -> scenes and days (each product written as soon as it is complete) ->
 composites over the finished day/scene products -> zone tables -> NetCDF
-stacks -> Zarr stores -> STAC catalog -> quicklooks.  A rerun skips products
+stacks -> Zarr stores -> STAC catalog -> quicklooks -> validation against net radiometers.  A rerun skips products
 whose inputs and settings are unchanged (their ``settings_hash`` tag) and
 finishes the rest.
 """
@@ -64,6 +64,12 @@ def run_config(cfg: Config, *, overwrite: bool = False, scheduler: str | None = 
         events.started(plan, engine)
         for label, why in plan.skipped:
             events.warn(f"{label} skipped (on_missing: skip): {why}")
+        if plan.cfg.stations is not None:
+            from .stages.weather import run_weather
+            w, s = run_weather(plan, engine, overwrite=overwrite)
+            report.written += w
+            report.skipped += s
+            events.stage_done("weather", len(w), len(s))
         report.results = run_jobs(plan, engine, overwrite=overwrite)
         for r in report.results:
             report.written += r.written
@@ -100,6 +106,11 @@ def run_config(cfg: Config, *, overwrite: bool = False, scheduler: str | None = 
             w = run_quicklooks(plan, report.paths, overwrite=overwrite)
             report.written += w
             events.stage_done("quicklooks", len(w))
+        if cfg.validation is not None:
+            from .stages.validation import run_validation
+            w = run_validation(plan, engine)
+            report.written += w
+            events.stage_done("validation", len(w))
     except BaseException:
         _remove_empty(cfg.output.directory, created)
         raise

@@ -116,6 +116,10 @@ class ConsoleEvents(WarningsOnly):
     def stage_done(self, stage: str, written: int, skipped: int = 0) -> None:
         if stage.startswith("composite "):
             self.say(f"  {stage}: wrote {written}, up to date {skipped}")
+        elif stage == "weather":   # the grids and cross_validation.csv
+            self.say(f"  weather from stations: wrote {written} file(s), up to date {skipped} grid(s)")
+        elif stage == "validation":
+            self.say(f"  validation against net radiometers: wrote {written} file(s) (tables and plots)")
         else:
             what = {"zones": "table(s)", "netcdf": "stack(s)", "quicklooks": "PNG(s)"}.get(stage, "file(s)")
             self.say(f"  {stage}: wrote {written} {what}")
@@ -165,13 +169,19 @@ def where_everything_went(report) -> None:
     for p in report.paths:
         groups.setdefault(p.parent.name, []).append(p)
     print("\nwhere everything went:")
-    for name in ("scenes", "days", "composites", "zones", "netcdf", "quicklooks"):
+    for name in ("weather", "scenes", "days", "composites", "zones", "netcdf", "quicklooks", "validation"):
         if name in groups:
             print(f"  {out / name}/  ({len(groups[name])} files)")
     ql = out / "quicklooks"
     scenes = sorted(ql.glob("net_radiation_*T*.png")) if ql.exists() else []
     if scenes:
         print(f"net-radiation quicklooks: {ql}/net_radiation_*.png (e.g. {scenes[-1].name})")
+    if (out / "weather" / "cross_validation.csv").exists():
+        print(f"station gridding, leave-one-out errors: {out / 'weather' / 'cross_validation.csv'}")
+    scatters = sorted((out / "validation").glob("scatter_*.png")) if (out / "validation").exists() else []
+    if scatters:
+        print(f"against the net radiometers: {out / 'validation'}/summary.csv and "
+              f"{', '.join(p.name for p in scatters)}")
 
 
 class _Progress(Callback):

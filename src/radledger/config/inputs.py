@@ -7,6 +7,7 @@ Forms a config may use for any layer of an entry (or under ``static:``)::
     air_temperature_max: {path: met/tmax.nc, variable: tmax}   # a time stack (NetCDF, Zarr)
     shortwave_down: {path: met/rsd.nc, variable: rsd, units: W m-2}  # with its own decoding
     albedo: {interpolate: scenes, max_gap: 16}          # days: per pixel, between the scenes' albedos
+    air_temperature_max: stations                       # gridded from the stations: table per date
 """
 
 from __future__ import annotations
@@ -19,12 +20,17 @@ from ..model.layers import LAYERS
 from ..units import canonical_unit
 from .schema import InputSpec
 
-__all__ = ["parse_input", "INPUT_KEYS", "template_fields", "format_template", "STACK_SUFFIXES"]
+__all__ = ["parse_input", "INPUT_KEYS", "template_fields", "format_template", "STACK_SUFFIXES", "STATIONS",
+           "STATION_LAYERS"]
 
 INPUT_KEYS = ("path", "variable", "units", "scale", "offset", "nodata", "interpolate", "max_gap")
 STACK_SUFFIXES = (".nc", ".nc4", ".cdf", ".h5", ".hdf5", ".zarr", ".zarr/")
 INTERPOLATE = ("scenes",)
 DEFAULT_MAX_GAP = 16.0   # days: about two Landsat-class revisits
+STATIONS = "stations"    # the input value: this layer is gridded from the stations: table
+#: the weather layers a station table may grid (not satellite layers, land cover or the DEM)
+STATION_LAYERS = ("air_temperature", "air_temperature_max", "air_temperature_min", "dewpoint_temperature",
+                  "vapour_pressure", "relative_humidity", "shortwave_down")
 
 
 def template_fields(path: str) -> set[str]:
@@ -48,6 +54,8 @@ def parse_input(v, value, key: str, layer: str, *, placeholder: str) -> InputSpe
     ``None`` under ``static:`` where no template makes sense).
     """
     path_key = f"{key}.path"
+    if isinstance(value, str) and value.strip() == STATIONS:
+        return _from_stations(v, key, layer, placeholder)
     if isinstance(value, str):
         value, path_key = {"path": value}, key
     if not isinstance(value, dict):
@@ -96,6 +104,17 @@ def parse_input(v, value, key: str, layer: str, *, placeholder: str) -> InputSpe
         v.fail(path_key, "a time stack holds every date itself; give its path without a template")
         return None
     return spec
+
+
+def _from_stations(v, key: str, layer: str, placeholder) -> InputSpec | None:
+    if placeholder is None:
+        v.fail(key, "stations belongs to a scenes: or days: entry (gridded for each date or time), not static:")
+        return None
+    if layer not in STATION_LAYERS:
+        v.fail(key, f"{layer} cannot be gridded from stations; stations grid the weather layers "
+                    f"({', '.join(STATION_LAYERS)})")
+        return None
+    return InputSpec(stations=True)
 
 
 def _interpolated(v, value: dict, key: str, layer: str, placeholder) -> InputSpec | None:

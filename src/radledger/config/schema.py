@@ -15,7 +15,7 @@ from typing import Any
 from ..model.products import DEFAULT_PRODUCTS
 
 __all__ = ["Config", "GridSpec", "LayerDecoding", "InputSpec", "EmissivitySpec", "Methods", "Scene", "Day",
-           "CompositeSpec", "ZonesSpec", "OutputSpec", "DEFAULTS", "keys_of",
+           "CompositeSpec", "ZonesSpec", "OutputSpec", "StationsSpec", "ValidationSpec", "DEFAULTS", "keys_of",
            "RESAMPLING", "CLEAR_SKY_MODELS", "SCENE_TO_DAY", "ZONE_WEIGHTING"]
 
 ZONE_WEIGHTING = ("centre", "coverage")
@@ -73,6 +73,7 @@ class InputSpec:
     interpolate: str | None = None   # "scenes": a day's albedo between the scenes' albedos
     max_gap: float | None = None     # [day] for interpolate
     template: str | None = None      # the template a dated path was filled in from
+    stations: bool = False           # gridded from the ``stations:`` table for each date or time
 
     @property
     def is_stack(self) -> bool:
@@ -91,6 +92,8 @@ class InputSpec:
         return replace(self, path=self.path.format(date=day, time=when), template=self.path)
 
     def describe(self) -> str:
+        if self.stations:
+            return "gridded from the stations: table"
         if self.interpolate:
             return f"interpolated between {self.interpolate} (max_gap {self.max_gap:g} days)"
         extra = [f"variable {self.variable}"] if self.variable else []
@@ -147,6 +150,22 @@ class ZonesSpec:
 
 
 @dataclass(frozen=True)
+class StationsSpec:
+    """``stations:``: a weather-station table gridded onto the target grid for each date or time."""
+    path: str                     # CSV: station, lon, lat, elevation, date and/or time, value columns
+    crs: str = "EPSG:4326"        # of the lon/lat columns
+    columns: dict[str, str] = field(default_factory=dict)   # layer -> the table's column
+    method: str = "spline"        # spline | idw | kriging (residuals after the elevation trend)
+
+
+@dataclass(frozen=True)
+class ValidationSpec:
+    """``validation:``: measured net radiation (net radiometers) paired with the products."""
+    path: str                     # CSV: station, lon, lat, date and/or time, net_radiation
+    crs: str = "EPSG:4326"
+
+
+@dataclass(frozen=True)
 class OutputSpec:
     directory: Path = Path("out")
     products: tuple[str, ...] = DEFAULT_PRODUCTS
@@ -171,6 +190,8 @@ class Config:
     composites: tuple[CompositeSpec, ...]
     zones: ZonesSpec | None
     output: OutputSpec
+    stations: StationsSpec | None = None
+    validation: ValidationSpec | None = None
     raw: dict = field(repr=False, default_factory=dict)
 
     def decoding(self, layer: str) -> LayerDecoding:
@@ -203,6 +224,8 @@ DEFAULTS: dict[str, Any] = {
     **_defaults_of("emissivity", EmissivitySpec),
     **_defaults_of("methods", Methods),
     **_defaults_of("zones", ZonesSpec),
+    **_defaults_of("stations", StationsSpec),
+    **_defaults_of("validation", ValidationSpec),
     **{k: (str(v) if isinstance(v, Path) else v) for k, v in _defaults_of("output", OutputSpec).items()},
     **{k.replace("composite.", "composites."): v for k, v in _defaults_of("composite", CompositeSpec).items()
        if not k.endswith(".key")},

@@ -15,7 +15,7 @@ from pathlib import Path
 from ..errors import ConfigError
 from ..io.paths import is_remote, is_url
 from ..model.needs import day_needs, scene_needs
-from . import composites as _composites, entries as _entries, sections as _sections
+from . import composites as _composites, entries as _entries, sections as _sections, stations as _stations
 from ..model.layers import ALL_LAYERS
 from .schema import Config, keys_of
 
@@ -164,6 +164,9 @@ class Validator:
         composites = _composites.composites(self, raw.get("composites"), scenes, days)
         zones = _sections.zones(self, raw.get("zones"))
         output = _sections.output(self, raw.get("output"))
+        stations = _stations.stations(self, raw.get("stations"))
+        validation = _stations.validation(self, raw.get("validation"))
+        _stations.station_inputs(self, stations, scenes, days, static)
         if not scenes and not days:
             self.fail("scenes", "the config lists no scenes and no days; add at least one")
         needs_lc = bool(scenes) and emissivity.constant is None
@@ -177,4 +180,5 @@ class Validator:
             return None
         return Config(path=self.path, title=str(title), grid=grid, layers=layers, static=static,
                       emissivity=emissivity, methods=methods, scenes=tuple(scenes), days=tuple(days),
-                      composites=tuple(composites), zones=zones, output=output, raw=self.raw)
+                      composites=tuple(composites), zones=zones, output=output, stations=stations,
+                      validation=validation, raw=self.raw)

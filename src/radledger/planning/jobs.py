@@ -23,8 +23,9 @@ from ..model.needs import day_needs, scene_needs
 from ..model.params import DayParams, SceneParams
 from ..model.products import DAY_PRODUCTS, SCENE_DAY_PRODUCT, SCENE_PRODUCTS
 from .checks import check_sample
-from .provenance import settings_hash, sources_fingerprint
+from .provenance import settings_hash
 from .sources import MissingInput, input_source
+from .stations import StationInputs, read_observations, sources_fingerprint_with_stations as sources_fingerprint
 
 __all__ = ["JobBuilder", "DEFAULT_ALBEDO_NOTE", "SAMPLE_CHECKS_PER_INPUT"]
 
@@ -46,6 +47,15 @@ class JobBuilder:
     skipped: list[tuple[str, str]] = field(default_factory=list)     # (job label, why)
     _checked: dict = field(default_factory=dict)
     _scene_albedo: list = field(default_factory=list)                 # (time, source) of every scene
+    _stations: StationInputs | None = None                             # the stations: table, read once
+
+    def __post_init__(self):
+        # the net-radiometer table is read here too, so its problems stop the run before anything is written
+        if self.inspect and self.cfg.validation is not None:
+            try:
+                read_observations(self.cfg, self.grid)
+            except RadledgerError as exc:
+                self.problems.append(exc)
 
     # ---- sources ----------------------------------------------------------------------
     def _identity(self, layer: str, spec: InputSpec) -> tuple:
@@ -68,7 +78,14 @@ class JobBuilder:
             check_sample(src, kind=kind)
         self._checked[key] = n + 1
 
+    def stations(self) -> StationInputs:
+        if self._stations is None:
+            self._stations = StationInputs(self.cfg, self.grid, self.source, inspect=self.inspect)
+        return self._stations
+
     def source(self, layer: str, spec: InputSpec, kind: TimeKind, when):
+        if spec.stations:   # written by the weather stage before the jobs: nothing to open yet
+            return self.stations().source(layer, kind, when)
         src = input_source(self.cfg, layer, spec, kind, when)
         self._inspect(layer, spec, src, kind)
         return src
@@ -91,7 +108,8 @@ class JobBuilder:
                     self.problems.append(exc)
                 return None
             except RadledgerError as exc:
-                self.problems.append(exc)
+                if str(exc) not in {str(p) for p in self.problems}:   # e.g. a station table's problem, once
+                    self.problems.append(exc)
                 return None
         return out
 

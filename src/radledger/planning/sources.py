@@ -17,7 +17,7 @@ from ..kinds import TimeKind
 from ..model.layers import LAYERS, SHORTWAVE_UNITS
 from ..units import canonical_unit, to_internal
 
-__all__ = ["input_source", "layer_source", "shortwave_units", "stack_steps", "MissingInput"]
+__all__ = ["input_source", "layer_source", "shortwave_units", "stack_steps", "MissingInput", "layer_conversion"]
 
 
 class MissingInput(InputError):
@@ -59,6 +59,14 @@ def _conversion(layer: str, kind: TimeKind, declared: str | None, *, layers_unit
                          f"layers.{layer}.units or the input's own units")
     factor, shift = to_internal(units, target=info.internal_unit)
     return factor, shift, units
+
+
+def layer_conversion(cfg: Config, layer: str, kind: TimeKind, *, where: str) -> tuple[float, float, str]:
+    """(factor, shift, units) taking values in the units ``layers:`` declares to internal units.
+
+    For inputs that carry no decoding of their own, such as a station table's columns.
+    """
+    return _conversion(layer, kind, None, layers_units=cfg.decoding(layer).units, where=where)
 
 
 def layer_source(cfg: Config, layer: str, path: str, *, kind: TimeKind = TimeKind.SCENES,
