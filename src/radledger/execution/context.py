@@ -14,7 +14,9 @@ from dataclasses import dataclass, field
 import numpy as np
 from rasterio.windows import Window
 
+from .. import physics as ph
 from ..grid import TargetGrid
+from ..model.params import DaySolar
 
 __all__ = ["ChunkContext"]
 
@@ -27,6 +29,8 @@ class ChunkContext:
     warps: dict = field(default_factory=dict)
     _memo: dict = field(default_factory=dict)
     _lonlat: tuple | None = None
+    _lattice: object = None
+    _lattice_lat: np.ndarray | None = None
 
     def read(self, source) -> dict[str, np.ndarray]:
         """The decoded arrays of one source on the window (a shared source is read only once)."""
@@ -40,3 +44,17 @@ class ChunkContext:
         if self._lonlat is None:
             self._lonlat = self.grid.lonlat(self.window)
         return self._lonlat
+
+    def day_solar(self, day_of_year: int) -> DaySolar:
+        """FAO-56 R_a (eq. 21) and day length N (eq. 34) of one day over the window.
+
+        Both depend only on latitude, smoothly: they are evaluated at the lattice's points and
+        spread bilinearly (far below the standard's own rounding, see tests/test_days.py).
+        """
+        if self._lattice is None:
+            self._lattice = self.grid.lattice(self.window)
+            self._lattice_lat = self._lattice.lonlat()[1]
+        lat = self._lattice_lat
+        ra = ph.extraterrestrial_daily(lat, day_of_year)
+        n = ph.daylight_hours(ph.sunset_hour_angle(lat, ph.solar_declination(day_of_year)))
+        return DaySolar(self._lattice.spread(ra, np.float32), self._lattice.spread(n, np.float32))

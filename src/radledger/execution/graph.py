@@ -19,6 +19,7 @@ from pathlib import Path
 
 import numpy as np
 from dask.base import tokenize
+from rasterio.windows import Window
 
 from ..grid import TargetGrid
 from ..io.cog import ProductFile, is_current
@@ -89,8 +90,7 @@ def chunk_products(job: Job, grid: TargetGrid, window, names: tuple[str, ...], *
             lonlat = ctx.lonlat() if p.scene_to_day != "none" else None
             out = scene_kernel(arrays, sun, lonlat, p, reuse=reuse)
         else:
-            _, lat = ctx.lonlat()
-            out = day_kernel(arrays, lat, job.params)
+            out = day_kernel(arrays, ctx.day_solar(job.params.day_of_year), job.params)
     return {n: out[n] for n in names}
 
 
@@ -139,14 +139,34 @@ def _batch_task(batch: tuple, grid: TargetGrid, window, shared: frozenset, strea
     ``batch``: (job, product names, sinks) per date.  The context keeps what is the same for every
     date; products are written (and streamed) before the next date reuses the kernel's buffers.
     """
-    ctx = ChunkContext(grid, window, shared)
-    out = []
-    for job, names, sinks in batch:
-        products = chunk_products(job, grid, window, names, reuse=True, ctx=ctx)
-        out.append(_write_chunk(job, window, products, sinks))
-        for stream in streams:
-            stream.add(job, window, products)
+    out = [None] * len(batch)
+    for block in sub_windows(window, compute_block(grid)):
+        ctx = ChunkContext(grid, block, shared)
+        for i, (job, names, sinks) in enumerate(batch):
+            products = chunk_products(job, grid, block, names, reuse=True, ctx=ctx)
+            summary = _write_chunk(job, block, products, sinks)
+            out[i] = summary if out[i] is None else {n: out[i][n].merge(summary[n]) for n in summary}
+            for stream in streams:
+                stream.add(job, block, products)
     return out
+
+
+#: edge of the blocks a chunk task computes one at a time [pixel]: what a task holds for one date
+#: (a dozen float32 arrays) stays near 1 MB each whatever grid.chunk is; 512 matches the COG tiles
+COMPUTE_BLOCK = 512
+
+
+def compute_block(grid: TargetGrid) -> int:
+    return min(grid.chunk, COMPUTE_BLOCK)
+
+
+def sub_windows(window, edge: int):
+    """The blocks of ``window``, row-major, ``edge`` pixels square (the last row/column smaller)."""
+    r0, c0 = int(window.row_off), int(window.col_off)
+    h, w = int(window.height), int(window.width)
+    for r in range(r0, r0 + h, edge):
+        for c in range(c0, c0 + w, edge):
+            yield Window(c, r, min(edge, c0 + w - c), min(edge, r0 + h - r))
 
 
 def _merge_summaries(parts: list[dict], names) -> dict:
@@ -194,7 +214,8 @@ class JobResult:
 
 
 def _product_files(plan: Plan, job: Job, todo: dict, engine: Engine) -> list[ProductFile]:
-    in_task = tuple(f for f in overview_factors(plan.grid.width, plan.grid.height) if plan.grid.chunk % f == 0)
+    block = compute_block(plan.grid)
+    in_task = tuple(f for f in overview_factors(plan.grid.width, plan.grid.height) if block % f == 0)
     files = []
     for n, path in todo.items():
         info = target_product(job, n)

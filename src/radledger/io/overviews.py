@@ -13,7 +13,6 @@ would invent flags).
 
 from __future__ import annotations
 
-from ..physics._jit import jit
 import numpy as np
 
 __all__ = ["overview_factors", "nearest_levels", "mean_levels", "reduce_level", "level_shape", "mean_pyramid"]
@@ -35,65 +34,48 @@ def level_shape(h: int, w: int, f: int) -> tuple[int, int]:
     return -(-h // f), -(-w // f)
 
 
-@jit(nogil=True, cache=True)
-def _halve_mean(s, n):
+def _halve(s: np.ndarray, n: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Sums and counts of 2 x 2 cells (a ragged last row/column counts what it has)."""
     h, w = s.shape
-    s2 = np.zeros(((h + 1) // 2, (w + 1) // 2), np.float64)
-    n2 = np.zeros(((h + 1) // 2, (w + 1) // 2), np.int64)
-    for i in range(h):
-        ii = i >> 1
-        for j in range(w):
-            s2[ii, j >> 1] += s[i, j]
-            n2[ii, j >> 1] += n[i, j]
-    return s2, n2
+    if h % 2 or w % 2:   # pad to even with empty cells
+        s = np.pad(s, ((0, h % 2), (0, w % 2)))
+        n = np.pad(n, ((0, h % 2), (0, w % 2)))
+    hh, ww = s.shape[0] // 2, s.shape[1] // 2
+    return s.reshape(hh, 2, ww, 2).sum(axis=(1, 3)), n.reshape(hh, 2, ww, 2).sum(axis=(1, 3))
 
 
-@jit(nogil=True, cache=True)
-def _mean_of(s, n):
-    out = np.empty(s.shape, np.float32)
-    for i in range(s.shape[0]):
-        for j in range(s.shape[1]):
-            out[i, j] = s[i, j] / n[i, j] if n[i, j] > 0 else np.nan
-    return out
+def _mean_of(s: np.ndarray, n: np.ndarray) -> np.ndarray:
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(n > 0, s / np.maximum(n, 1), np.nan).astype(np.float32)
 
 
 def mean_levels(block: np.ndarray, factors) -> dict[int, np.ndarray]:
     return mean_pyramid(block, factors)[0]
 
 
-@jit(nogil=True, cache=True)
-def _halve_with_stats(a):
-    """2 x 2 sums and counts of the non-NaN pixels of ``a``, plus min, max, sum, count of its finite ones."""
-    h, w = a.shape
-    s = np.zeros(((h + 1) // 2, (w + 1) // 2), np.float64)
-    n = np.zeros(((h + 1) // 2, (w + 1) // 2), np.int64)
-    lo, hi, tot, cnt = np.inf, -np.inf, 0.0, 0
-    for i in range(h):
-        ii = i >> 1
-        for j in range(w):
-            v = a[i, j]
-            if v == v:
-                s[ii, j >> 1] += v
-                n[ii, j >> 1] += 1
-                if v != np.inf and v != -np.inf:
-                    lo = min(lo, v)
-                    hi = max(hi, v)
-                    tot += v
-                    cnt += 1
-    return s, n, lo, hi, tot, cnt
-
-
 def mean_pyramid(block: np.ndarray, factors) -> tuple[dict[int, np.ndarray], tuple]:
-    """NaN-ignoring mean levels of one block and its (min, max, sum, count) summary, in one pass."""
-    s, n, lo, hi, tot, cnt = _halve_with_stats(np.ascontiguousarray(block, dtype=np.float32))
+    """NaN-ignoring mean levels of one block and its (min, max, sum, count) summary of finite values.
+
+    Plain NumPy (2 x 2 sums by reshaping): a few milliseconds per 512 x 512 block, and no
+    compiler to load for it.
+    """
+    a = np.asarray(block, dtype=np.float32)
+    valid = ~np.isnan(a)
+    finite = np.isfinite(a)
+    cnt = int(np.count_nonzero(finite))
+    if cnt:
+        vals = a[finite] if cnt < a.size else a
+        lo, hi, tot = float(vals.min()), float(vals.max()), float(vals.sum(dtype=np.float64))
+    else:
+        lo, hi, tot = float("inf"), float("-inf"), 0.0
+    s, n = _halve(np.where(valid, a, np.float32(0)).astype(np.float64), valid.astype(np.int32))
     out, f = {}, 2
     for target in factors:
         while f < target:
-            s, n = _halve_mean(s, n)
+            s, n = _halve(s, n)
             f *= 2
         out[target] = _mean_of(s, n)
-    return out, (float(lo), float(hi), float(tot), int(cnt))
+    return out, (lo, hi, tot, cnt)
 
 
 def nearest_levels(block: np.ndarray, factors) -> dict[int, np.ndarray]:

@@ -13,7 +13,7 @@ from .. import physics as ph
 from .albedo import FILL_DEFAULT, FILL_HELD, FILL_INTERPOLATED, REFERENCE_ALBEDO
 from .fused import fused_scene
 from .layers import PHYSICAL_RANGES
-from .params import DayParams, SceneParams
+from .params import DayParams, DaySolar, SceneParams
 from .products import DAY_QUALITY_BITS, SCENE_DAY_PRODUCT, SCENE_QUALITY_BITS
 from .sun import SunGeometry
 from .surface import chunk_emissivity
@@ -150,14 +150,13 @@ def _scene_to_day(rn: np.ndarray, lonlat, sun: SunGeometry, rso, z, p: ScenePara
     return np.where(sun.cos_zenith > 0, day, np.float32(np.nan)).astype(np.float32)
 
 
-def day_kernel(arrays: dict[str, np.ndarray], lat: np.ndarray, p: DayParams) -> dict[str, np.ndarray]:
-    """Every FAO-56 day product of one chunk [MJ m-2 day-1]."""
-    shape = lat.shape
+def day_kernel(arrays: dict[str, np.ndarray], solar: DaySolar, p: DayParams) -> dict[str, np.ndarray]:
+    """Every FAO-56 day product of one chunk [MJ m-2 day-1] (``solar``: R_a and N over the chunk)."""
+    shape = solar.extraterrestrial.shape
     q = np.zeros(shape, dtype=np.uint8)
     if p.shortwave_daylight_mean:
         # a mean over the daylight hours [W m-2] x the day length N (FAO-56 eqs. 25 and 34) -> MJ m-2 day-1
-        n_hours = ph.daylight_hours(ph.sunset_hour_angle(lat, ph.solar_declination(p.day_of_year)))
-        arrays = {**arrays, "shortwave_down": arrays["shortwave_down"] * (n_hours * 3600e-6)}
+        arrays = {**arrays, "shortwave_down": arrays["shortwave_down"] * (solar.daylight_hours * np.float32(3600e-6))}
     rs = _checked(arrays, "shortwave_down", q, "shortwave_down_day")
     tmax = _checked(arrays, "air_temperature_max", q)
     tmin = _checked(arrays, "air_temperature_min", q)
@@ -174,7 +173,8 @@ def day_kernel(arrays: dict[str, np.ndarray], lat: np.ndarray, p: DayParams) -> 
     else:   # FAO-56's grass reference, flagged: snow, water and forest differ a lot
         albedo = np.float32(REFERENCE_ALBEDO)
         q |= B["albedo_default"]
-    terms = ph.fao56_net_radiation_components_daily(rs, tmax, tmin, ea, lat, p.day_of_year, z, albedo)
+    terms = ph.fao56_net_radiation_components_daily(rs, tmax, tmin, ea, None, p.day_of_year, z, albedo,
+                                                    extraterrestrial=solar.extraterrestrial)
     with np.errstate(invalid="ignore", divide="ignore"):
         rso = terms["clear_sky_shortwave"]
         lo, hi = ph.RELATIVE_SHORTWAVE_LIMITS

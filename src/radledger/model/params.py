@@ -9,7 +9,14 @@ import numpy as np
 
 from .needs import Needs
 
-__all__ = ["SceneParams", "DayParams"]
+__all__ = ["SceneParams", "DayParams", "DaySolar"]
+
+
+@dataclass(frozen=True)
+class DaySolar:
+    """The sun's part of one day over a chunk (FAO-56): what depends only on latitude and date."""
+    extraterrestrial: np.ndarray    # R_a, eq. 21 [MJ m-2 day-1]
+    daylight_hours: np.ndarray      # N, eq. 34 [hour]
 
 
 @dataclass(frozen=True)

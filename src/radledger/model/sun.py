@@ -18,11 +18,9 @@ import numpy as np
 from rasterio.windows import Window
 
 from .. import physics as ph
-from ..grid import TargetGrid
+from ..grid import LATTICE_STEP, TargetGrid
 
 __all__ = ["SunGeometry", "sun_geometry", "sun_up_everywhere"]
-
-LATTICE_STEP = 16
 
 
 @dataclass(frozen=True)
@@ -42,51 +40,19 @@ class SunGeometry:
         return self.cos_zenith <= 0.0
 
 
-def _lattice(h: int, w: int, step: int) -> tuple[np.ndarray, np.ndarray]:
-    rows = np.unique(np.r_[np.arange(0, h, step), h - 1])
-    cols = np.unique(np.r_[np.arange(0, w, step), w - 1])
-    return rows, cols
-
-
-def _bilinear(v: np.ndarray, rows: np.ndarray, cols: np.ndarray, h: int, w: int) -> np.ndarray:
-    if len(rows) == 1 or len(cols) == 1:
-        return np.broadcast_to(v[np.clip(np.searchsorted(rows, np.arange(h)), 0, len(rows) - 1)][:, [0] * w]
-                               if len(cols) == 1 else v[[0] * h][:, np.clip(np.searchsorted(cols, np.arange(w)),
-                                                                             0, len(cols) - 1)], (h, w)).copy()
-    r, c = np.arange(h), np.arange(w)
-    i = np.clip(np.searchsorted(rows, r, side="right") - 1, 0, len(rows) - 2)
-    j = np.clip(np.searchsorted(cols, c, side="right") - 1, 0, len(cols) - 2)
-    fr = ((r - rows[i]) / (rows[i + 1] - rows[i]))[:, None]
-    fc = ((c - cols[j]) / (cols[j + 1] - cols[j]))[None, :]
-    vi, vi1 = v[i], v[i + 1]
-    return (vi[:, j] * (1 - fr) * (1 - fc) + vi[:, j + 1] * (1 - fr) * fc
-            + vi1[:, j] * fr * (1 - fc) + vi1[:, j + 1] * fr * fc)
-
-
-def _lattice_lonlat(grid: TargetGrid, window: Window, rows, cols) -> tuple[np.ndarray, np.ndarray]:
-    t = grid.window_transform(window)
-    xs = t.c + t.a * (cols + 0.5)
-    ys = t.f + t.e * (rows + 0.5)
-    x, y = np.meshgrid(xs, ys)
-    if grid.crs.is_geographic:
-        return x, y
-    return grid.to_lonlat(x, y)
-
-
 def sun_geometry(grid: TargetGrid, window: Window, time: dt.datetime, *, step: int = LATTICE_STEP
                  ) -> SunGeometry:
     """The sun over ``window`` of ``grid`` at ``time`` (UTC)."""
-    h, w = int(window.height), int(window.width)
-    rows, cols = _lattice(h, w, step)
-    lon, lat = _lattice_lonlat(grid, window, rows, cols)
+    lattice = grid.lattice(window, step=step)
+    lon, lat = lattice.lonlat()
     zenith, azimuth = ph.sun_position(lat, lon, time)
     cosz = np.cos(np.radians(zenith))
     normal = ph.SOLAR_CONSTANT_W / ph.sun_distance(time) ** 2   # extraterrestrial, normal to the beam
     # azimuth: interpolate its sine and cosine so 359 and 1 deg do not average to 180
     a = np.radians(azimuth)
-    sin_a = _bilinear(np.sin(a), rows, cols, h, w)
-    cos_a = _bilinear(np.cos(a), rows, cols, h, w)
-    cos_zenith = _bilinear(cosz, rows, cols, h, w)
+    sin_a = lattice.spread(np.sin(a))
+    cos_a = lattice.spread(np.cos(a))
+    cos_zenith = lattice.spread(cosz)
     return SunGeometry(cos_zenith=cos_zenith,
                        azimuth=np.mod(np.degrees(np.arctan2(sin_a, cos_a)), 360.0),
                        extraterrestrial=normal * np.maximum(cos_zenith, 0.0))
@@ -100,8 +66,7 @@ def sun_up_everywhere(grid: TargetGrid, window: Window, time: dt.datetime, *, mi
     within a small margin (callers add one); this skips a full-chunk pass on
     daytime scenes.
     """
-    h, w = int(window.height), int(window.width)
-    rows, cols = np.array([0, h - 1]), np.array([0, w - 1])
-    lon, lat = _lattice_lonlat(grid, window, rows, cols)
+    corners = grid.lattice(window, step=max(int(window.height), int(window.width)))
+    lon, lat = corners.lonlat()
     zenith, _ = ph.sun_position(lat, lon, time)
     return bool(np.all(90.0 - zenith > min_elevation))

@@ -167,6 +167,8 @@ def fao56_net_radiation_components_daily(
     day_of_year,
     elevation=0.0,
     albedo=0.23,
+    *,
+    extraterrestrial=None,
 ):
     """Every term of the FAO-56 daily net radiation (eqs. 21, 37, 38, 39, 40).
 
@@ -188,6 +190,9 @@ def fao56_net_radiation_components_daily(
         Elevation above sea level, for eq. 37 [m].
     albedo : float or array_like, optional
         Surface albedo; 0.23 is the FAO-56 grass reference [1].
+    extraterrestrial : float or array_like, optional
+        R_a of eq. 21 for ``latitude`` and ``day_of_year`` when the caller has it
+        already (then ``latitude`` is not used) [MJ m-2 day-1].
 
     Returns
     -------
@@ -197,7 +202,7 @@ def fao56_net_radiation_components_daily(
         eq. 39, positive = loss) and ``net_radiation`` (R_n, eq. 40), all
         [MJ m-2 day-1].
     """
-    ra = extraterrestrial_daily(latitude, day_of_year)
+    ra = extraterrestrial_daily(latitude, day_of_year) if extraterrestrial is None else extraterrestrial
     rso = clear_sky_shortwave_fao56(ra, elevation)
     rns = net_shortwave(albedo, shortwave_down)
     rnl = fao56_net_longwave_daily(tmax, tmin, vapour_pressure, shortwave_down, rso)
