@@ -14,7 +14,9 @@ import os
 
 from .._version import __version__
 from ..config import CompositeSpec, Config
+from ..io.paths import is_remote
 from ..io.rasters import LayerSource
+from ..io.remote import remote_fingerprint
 from ..kinds import TimeKind
 from ..model.products import QUALITY_BITS, Product, product_info
 
@@ -22,17 +24,29 @@ __all__ = ["file_fingerprint", "sources_fingerprint", "settings_hash", "product_
            "composite_tags"]
 
 
-def file_fingerprint(path: str) -> list:
+def file_fingerprint(path: str, *, fresh: bool = False) -> list:
+    """What changes whenever the content of input ``path`` changes (README: reruns and fingerprints).
+
+    Local files: size, modification and change times (ns), inode and device,
+    so a rewrite that keeps size and mtime (``touch -r``, ``cp -p``,
+    ``rsync -t``) still changes the change time or the inode.  Remote inputs:
+    the ETag, else the Last-Modified, of a HEAD request (see
+    :func:`radledger.io.remote.remote_fingerprint`; ``fresh`` asks again even
+    within a fingerprint session).  A missing file gives just its path.
+    """
+    if is_remote(path):
+        return [path, *remote_fingerprint(path, fresh=fresh)]
     try:
         st = os.stat(path)
-        return [path, st.st_size, st.st_mtime_ns]
-    except OSError:
+    except (OSError, ValueError):
         return [path]
+    return [path, st.st_size, st.st_mtime_ns, st.st_ctime_ns, st.st_ino, st.st_dev]
 
 
-def sources_fingerprint(srcs: dict[str, LayerSource]) -> list:
-    """What a product depends on in its inputs: each file (size, mtime) and its decoding."""
-    return [file_fingerprint(s.path) + [s.scale, s.offset, s.nodata, s.factor, s.shift, s.resampling]
+def sources_fingerprint(srcs: dict[str, LayerSource], *, fresh: bool = False) -> list:
+    """What a product depends on in its inputs: each file's fingerprint and its decoding."""
+    return [file_fingerprint(s.path, fresh=fresh) + [s.scale, s.offset, s.nodata, s.factor, s.shift,
+                                                     s.resampling]
             for s in srcs.values()]
 
 
