@@ -21,6 +21,7 @@ its target, checked, and renamed into place.
 from __future__ import annotations
 
 import argparse
+import logging
 import os
 import signal
 import sys
@@ -162,6 +163,23 @@ def _silence_stdout() -> None:
         pass
 
 
+class _NoTraceback(logging.Filter):
+    """A library's log line keeps its message but not its traceback (``--debug`` keeps both)."""
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        record.exc_info = record.exc_text = record.stack_info = None
+        return True
+
+
+def _quiet_cluster_logs() -> None:
+    """dask.distributed logs its reconnection attempts with tracebacks; the user gets one line from us."""
+    import distributed  # noqa: F401  (sets up its loggers and handlers)
+    quiet = _NoTraceback()
+    for name in ("distributed", "distributed.client", "distributed.comm", "tornado", "tornado.application", ""):
+        for handler in logging.getLogger(name).handlers:
+            handler.addFilter(quiet)
+
+
 def _say_waiting(message: str) -> None:
     print(f"radledger: {message}", file=sys.stderr, flush=True)
 
@@ -207,6 +225,8 @@ def _dispatch(args) -> int:
         if not args.quiet:
             where_everything_went(report)
         return 0
+    if (args.scheduler or os.environ.get("DASK_SCHEDULER_ADDRESS")) and not args.debug:
+        _quiet_cluster_logs()
     out = os.path.abspath(_text_argument(args.out, "--out")) if args.out else None
     cfg = load_config(_text_argument(args.config, "config"), output_override=out)
     run_config(cfg, overwrite=args.overwrite, scheduler=args.scheduler, force=args.force, events=events,
