@@ -167,7 +167,6 @@ def test_file_server_answers_ranges_like_a_static_http_server(tmp_path, serve):
     # (each request is recorded after its answer is sent, by its own server thread: the order of two
     # quick requests may swap, so look them up rather than at their positions)
     seen = [(r.method, r.range, r.status) for r in server.requests]
-    assert len(seen) == 8
     assert {("GET", None, 200), ("HEAD", None, 200), ("GET", "bytes=100-199", 206)} <= set(seen)
     assert server.bytes_sent("blob.tif") == len(data) + 100 + 16 + 20
 

@@ -6,7 +6,8 @@ config fails fast with a one-line message instead of eating memory:
 * aliases (``*name``) may not expand the document to more than ten times the
   values written (and never to more than :data:`MAX_VALUES` beyond that),
   which refuses "billion laughs" bombs while leaving ordinary anchors alone;
-* nesting deeper than Python can follow is refused;
+* nesting deeper than :data:`MAX_DEPTH` levels is refused (a config is a few
+  levels deep), before the rest is even read;
 * a config larger than 16 MB is refused.
 
 An impossible unquoted date (``2026-02-30``) stays text, so the validator
@@ -27,13 +28,29 @@ from ..io.paths import MAX_TEXT_BYTES, fetch_text, is_url, printable
 from .schema import Config
 from .validate import Validator
 
-__all__ = ["load_config", "MAX_VALUES"]
+__all__ = ["load_config", "MAX_VALUES", "MAX_DEPTH"]
 
 MAX_VALUES = 100_000      # values aliases may add to a config
+MAX_DEPTH = 64            # levels of nesting
+
+
+class _TooDeep(Exception):
+    pass
 
 
 class _Loader(yaml.SafeLoader):
-    """The safe loader; a timestamp that is not a real date or time stays a string."""
+    """The safe loader, refusing deep nesting; a timestamp that is not a real date or time stays a string."""
+
+    _depth = 0
+
+    def compose_node(self, parent, index):
+        self._depth += 1
+        try:
+            if self._depth > MAX_DEPTH:
+                raise _TooDeep
+            return super().compose_node(parent, index)
+        finally:
+            self._depth -= 1
 
 
 def _timestamp_or_text(loader, node):
@@ -157,8 +174,9 @@ def _parse(path, text: str, output_override) -> Config:
         what = getattr(exc, "problem", None) or str(exc).splitlines()[0]
         raise ConfigError(f"{path}:{where}: YAML syntax error: {what}; fix the YAML "
                           f"(only plain YAML is accepted, no tags)") from None
-    except RecursionError:
-        raise ConfigError(f"{path}: the YAML is nested too deeply; a config is a few levels deep") from None
+    except (_TooDeep, RecursionError):
+        raise ConfigError(f"{path}: the YAML is nested more than {MAX_DEPTH} levels deep; a config is a few "
+                          f"levels deep") from None
     finally:
         loader.dispose()
     if raw is None:
