@@ -334,8 +334,6 @@ def test_unreadable_config_file(tmp_path, kind):
     assert str(path) in msg and "cannot read the config" in msg and "UTF-8" in msg
 
 
-@pytest.mark.xfail(strict=True, raises=ValueError,
-                   reason="an impossible unquoted date (2026-02-30) escapes PyYAML as ValueError, not ConfigError")
 def test_impossible_calendar_date_is_a_config_error(tmp_path):
     text = yaml.safe_dump(DAY, sort_keys=False).replace("'2026-07-14'", "2026-02-30")
     assert_reported(messages(write(tmp_path, text)), "", "days[0].date", "not a valid date")

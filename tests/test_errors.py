@@ -149,7 +149,8 @@ def test_output_folder_not_writable(scn, capsys):
 
 
 def test_grid_too_large_for_the_disk(scn, capsys):
-    scn.write_config(**{"grid": {"crs": "EPSG:32611", "resolution": 0.01,
+    # 1e11 pixels: 400 GB per float32 product, more than any test machine's disk
+    scn.write_config(**{"grid": {"crs": "EPSG:32611", "resolution": 0.1,
                                  "bounds": [300000, 4270000, 400000, 4280000], "chunk": 1024}})
     code, _, err = _run_cli(capsys, "run", str(scn.config))
     assert code == 2 and "--force" in err and "needs about" in err

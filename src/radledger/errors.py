@@ -2,7 +2,10 @@
 
 Every error a user can cause (config, inputs, grid, units) derives from
 :class:`RadledgerError`; the command line turns those into one line on stderr
-and exit status 2.  Anything else is a bug and exits 1.
+and exit status 2.  Two problems of the machine rather than of the config get
+their own status, because a rerun resumes once they are fixed: the outputs
+could not be written (:class:`WriteError`, disk full: 3) and the Dask cluster
+was lost (:class:`ClusterError`: 4).  Anything else is a bug and exits 1.
 """
 
 from __future__ import annotations
@@ -34,6 +37,19 @@ class UnknownClassError(InputError):
 
 class OutputError(RadledgerError):
     """The output folder cannot be written, or the products would not fit."""
+
+
+class WriteError(OutputError):
+    """Writing a product failed part-way (disk full, quota, file size limit, I/O error); nothing
+    unfinished is left at a final path."""
+
+
+class DiskFullError(WriteError):
+    """The output folder's disk ran out of space (or a quota or file size limit was reached)."""
+
+
+class ClusterError(RadledgerError):
+    """The Dask scheduler (or every worker) was lost during a run."""
 
 
 class Problems(RadledgerError):

@@ -1,14 +1,27 @@
 """The ``radledger`` command: demo, run, check, info.
 
-Exit status: 0 success; 2 a problem with the user's config or inputs (one
-line per problem on stderr, no traceback unless ``--debug``); 1 anything
-unexpected; 130/143 when stopped by SIGINT/SIGTERM (only whole products are
-left behind: every product is written beside its target and renamed).
+Exit status (the README's "Commands" lists the same):
+
+* 0 success;
+* 2 a problem with the user's config or inputs, found before or during the
+  run (one line per problem on stderr, no traceback unless ``--debug``);
+  products finished before it are kept;
+* 3 the outputs could not be written: the disk is full (or a quota or file
+  size limit was hit) or the disk failed; free space and rerun, it resumes;
+* 4 the Dask cluster was lost (scheduler gone, workers dying); restart it and
+  rerun, it resumes;
+* 1 anything unexpected (a bug: the traceback is printed);
+* 130/143 stopped by SIGINT/SIGTERM; 141 the reader of the output went away
+  (``radledger info FILE | head``), as for any command killed by SIGPIPE.
+
+In every case only whole products are left behind: each one is written beside
+its target, checked, and renamed into place.
 """
 
 from __future__ import annotations
 
 import argparse
+import logging
 import os
 import signal
 import sys
@@ -16,9 +29,20 @@ import traceback
 from pathlib import Path
 
 from .._version import __version__
-from ..errors import Problems, RadledgerError
+from ..errors import ClusterError, Problems, RadledgerError, WriteError
 
-__all__ = ["main"]
+__all__ = ["main", "exit_status"]
+
+EXIT_USER, EXIT_WRITE, EXIT_CLUSTER, EXIT_PIPE = 2, 3, 4, 141
+
+
+def exit_status(exc: RadledgerError) -> int:
+    """The exit status of a user-facing error (see the module docstring)."""
+    if isinstance(exc, WriteError):
+        return EXIT_WRITE
+    if isinstance(exc, ClusterError):
+        return EXIT_CLUSTER
+    return EXIT_USER
 
 
 class _Stopped(BaseException):
@@ -69,6 +93,9 @@ def _parser() -> argparse.ArgumentParser:
     r.add_argument("--overwrite", action="store_true", help="recompute products that are up to date")
     r.add_argument("--quiet", action="store_true", help="no progress and no summary")
     r.add_argument("--force", action="store_true", help="run even if the products may not fit on the disk")
+    r.add_argument("--out", metavar="DIR", default=None,
+                   help="output folder, instead of the config's output.directory (needed to write outside "
+                        "the current folder with a config read from a URL)")
 
     c = sub.add_parser("check", help="validate CONFIG and every input, print the plan, compute nothing")
     c.add_argument("config")
@@ -105,7 +132,12 @@ def main(argv: list[str] | None = None) -> int:
         print(f"error: {exc}", file=sys.stderr)
         if args.debug:
             traceback.print_exc()
-        return 2
+        return exit_status(exc)
+    except BrokenPipeError:
+        # the reader went away (`radledger info FILE | head -1`): stop quietly, as a command killed
+        # by SIGPIPE would; point stdout at /dev/null so the final flush does not fail again
+        _silence_stdout()
+        return EXIT_PIPE
     except KeyboardInterrupt:
         print("\nradledger: interrupted; finished products are kept, unfinished ones removed", file=sys.stderr)
         return 130
@@ -122,31 +154,82 @@ def main(argv: list[str] | None = None) -> int:
             signal.signal(sig, handler)
 
 
+def _silence_stdout() -> None:
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        os.close(devnull)
+    except (OSError, ValueError, AttributeError):
+        pass
+
+
+class _NoTraceback(logging.Filter):
+    """A library's log line keeps its message but not its traceback (``--debug`` keeps both)."""
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        record.exc_info = record.exc_text = record.stack_info = None
+        return True
+
+
+def _quiet_cluster_logs() -> None:
+    """dask.distributed logs its reconnection attempts with tracebacks; the user gets one line from us."""
+    import distributed  # noqa: F401  (sets up its loggers and handlers)
+    quiet = _NoTraceback()
+    for name in ("distributed", "distributed.client", "distributed.comm", "tornado", "tornado.application", ""):
+        for handler in logging.getLogger(name).handlers:
+            handler.addFilter(quiet)
+
+
+def _say_waiting(message: str) -> None:
+    print(f"radledger: {message}", file=sys.stderr, flush=True)
+
+
+def _text_argument(value: str, what: str) -> str:
+    """A path from the command line that is valid UTF-8 (else a one-line user error)."""
+    from ..io.paths import printable
+    try:
+        os.fsencode(value).decode("utf-8")
+    except UnicodeDecodeError:
+        raise RadledgerError(f"{printable(value)}: the {what} path is not valid UTF-8 text; rename it") from None
+    return value
+
+
 def _dispatch(args) -> int:
     from ..config import load_config
     from .console import ConsoleEvents, WarningsOnly, describe_plan, where_everything_went
 
     if args.command == "info":
         from ..outputs.info import describe_product
-        print(describe_product(args.file))
+        text = describe_product(_text_argument(args.file, "product"))
+        print(text, flush=True)
         return 0
     if args.command == "check":
+        from ..io.remote import fingerprint_session
         from ..planning.plan import make_plan
-        cfg = load_config(args.config)
-        plan = make_plan(cfg)
-        print(describe_plan(plan))
-        print("check: config and inputs OK; nothing computed")
+        from ..runner import disk_problems
+        cfg = load_config(_text_argument(args.config, "config"))
+        with fingerprint_session():
+            plan = make_plan(cfg, force=True)   # the disk estimate below counts only what is missing
+        problems = disk_problems(plan)
+        if problems:
+            raise problems[0]
+        print(describe_plan(plan), flush=True)
+        print("check: config and inputs OK; nothing computed", flush=True)
         return 0
     from ..runner import run_config
     events = WarningsOnly() if args.quiet else ConsoleEvents()
     if args.command == "demo":
-        cfg = load_config(demo_config(), output_override=os.path.abspath(args.out))
-        report = run_config(cfg, overwrite=args.overwrite, events=events)
+        cfg = load_config(demo_config(), output_override=os.path.abspath(_text_argument(args.out, "--out")))
+        report = run_config(cfg, overwrite=args.overwrite, events=events, on_wait=_say_waiting)
         if not args.quiet:
             where_everything_went(report)
         return 0
-    cfg = load_config(args.config)
-    run_config(cfg, overwrite=args.overwrite, scheduler=args.scheduler, force=args.force, events=events)
+    if (args.scheduler or os.environ.get("DASK_SCHEDULER_ADDRESS")) and not args.debug:
+        _quiet_cluster_logs()
+    out = os.path.abspath(_text_argument(args.out, "--out")) if args.out else None
+    cfg = load_config(_text_argument(args.config, "config"), output_override=out)
+    run_config(cfg, overwrite=args.overwrite, scheduler=args.scheduler, force=args.force, events=events,
+               on_wait=_say_waiting)
     return 0
 
 

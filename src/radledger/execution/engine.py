@@ -3,6 +3,16 @@
 The engine also owns the two things that depend on that choice: the lock that
 serialises writes to one file (a ``threading.Lock`` locally, a
 ``distributed.Lock`` on a cluster) and where progress is reported (its events).
+
+Locally, each engine (one run) has its own pool of threads: the per-thread
+handles of the inputs (io/rasters.py) then live for one run only, so a rerun in
+the same process (a notebook) never reads an input through a handle opened
+before the input was rewritten.
+
+Losing the cluster mid-run (the scheduler stops or becomes unreachable, or
+workers keep dying) raises :class:`~radledger.errors.ClusterError` with one
+line naming the address; a rerun resumes from the products already written.
+A worker that dies once is not an error: the scheduler reruns its tasks.
 """
 
 from __future__ import annotations
@@ -10,10 +20,11 @@ from __future__ import annotations
 import contextlib
 import os
 import threading
+from concurrent.futures import CancelledError, ThreadPoolExecutor
 
 import dask
 
-from ..errors import ConfigError
+from ..errors import ClusterError, ConfigError
 from ..io.gdalenv import gdal_options
 from .events import RunEvents
 
@@ -45,6 +56,8 @@ class Engine:
         self.address = address or os.environ.get("DASK_SCHEDULER_ADDRESS") or None
         self.events = events or RunEvents()
         self.client = None
+        self._pool: ThreadPoolExecutor | None = None
+        self._cluster_lost = False
         self._locks: dict[str, threading.Lock] = {}
         apply_gdal_process_settings()
         if self.address:
@@ -89,22 +102,59 @@ class Engine:
     def compute(self, *things, label: str = ""):
         """Compute Dask collections here (threads) or on the cluster; a tuple of results."""
         if self.client is not None:
-            futures = self.client.compute(list(things), optimize_graph=True)
-            self.events.remote(label, self.address)
-            return tuple(self.client.gather(futures))
+            with self._cluster_guard(label):
+                futures = self.client.compute(list(things), optimize_graph=True)
+                self.events.remote(label, self.address)
+                return tuple(self.client.gather(futures))
         with self._shown(label):
-            return dask.compute(*things, scheduler="threads")
+            return dask.compute(*things, scheduler="threads", pool=self._threads())
 
     def get(self, dsk: dict, keys: list, *, label: str = "") -> list:
         """Compute the raw task graph ``dsk`` for ``keys`` (one task per chunk)."""
         if self.client is not None:
-            self.events.remote(label, self.address)
-            return list(self.client.get(dsk, keys))
+            with self._cluster_guard(label):
+                self.events.remote(label, self.address)
+                return list(self.client.get(dsk, keys))
         from dask.threaded import get
         with self._shown(label):
-            return list(get(dsk, keys))
+            return list(get(dsk, keys, pool=self._threads()))
+
+    def _threads(self) -> ThreadPoolExecutor:
+        if self._pool is None:
+            self._pool = ThreadPoolExecutor(os.cpu_count() or 1, thread_name_prefix="radledger")
+        return self._pool
+
+    @contextlib.contextmanager
+    def _cluster_guard(self, label: str):
+        """Turn a lost scheduler (or workers that keep dying) into :class:`ClusterError`."""
+        try:
+            yield
+        except Exception as exc:
+            what = self._lost(exc)
+            if what is None:
+                raise
+            self._cluster_lost = True
+            raise ClusterError(f"--scheduler {self.address}: {what} during {label or 'the run'}; products "
+                               f"finished so far are kept - restart the cluster (or drop --scheduler) and "
+                               f"rerun to finish") from None
+
+    def _lost(self, exc: Exception) -> str | None:
+        """What went wrong with the cluster, or None when ``exc`` is the task's own error."""
+        name = type(exc).__name__
+        if name == "KilledWorker":
+            return "workers kept dying (out of memory?)"
+        if isinstance(exc, CancelledError) or name == "CommClosedError":
+            return "the connection to the Dask scheduler was lost"
+        status = str(getattr(self.client, "status", "running"))
+        if isinstance(exc, (OSError, TimeoutError)) and status != "running":
+            return f"the Dask scheduler stopped answering ({name})"
+        return None
 
     def close(self) -> None:
+        if self._pool is not None:
+            pool, self._pool = self._pool, None
+            pool.shutdown(wait=False, cancel_futures=True)
         if self.client is not None:
-            self.client.close()
-            self.client = None
+            client, self.client = self.client, None
+            with contextlib.suppress(Exception):
+                client.close(timeout=1 if self._cluster_lost else 10)

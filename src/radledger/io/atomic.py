@@ -3,34 +3,64 @@
 from __future__ import annotations
 
 import os
-import tempfile
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Iterator
 
-from ..errors import OutputError
+from ..errors import DiskFullError, OutputError
+from .lock import PARTIAL_MARK, partial_token
+from .space import write_failure
 
-__all__ = ["atomic_output"]
+__all__ = ["atomic_output", "fsync_file"]
+
+
+def fsync_file(path: str | os.PathLike) -> None:
+    """Push ``path``'s data to the disk, so a late write error (network disks) is raised here."""
+    fd = os.open(path, os.O_RDONLY)
+    try:
+        os.fsync(fd)
+    finally:
+        os.close(fd)
 
 
 @contextmanager
 def atomic_output(path: str | os.PathLike) -> Iterator[Path]:
     """Yield a temporary path beside ``path``; on success it replaces ``path`` atomically.
 
-    On any error the temporary file is removed and ``path`` is left as it was.
-    Raises :class:`OutputError` when the folder cannot be written.
+    The temporary is created with mode 0666 less the user's umask (as any file
+    the user creates), named after its owner so another run's start-up sweep
+    leaves it alone while this process lives, and synced to the disk before the
+    rename.  On any error it is removed and ``path`` is left as it was.  Raises
+    :class:`OutputError` when the folder cannot be written and
+    :class:`DiskFullError` when the disk fills up.
     """
     target = Path(path)
+    tmp = target.parent / f".{target.name}{PARTIAL_MARK}-{partial_token()}{target.suffix}"
     try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=target.parent)
+        os.close(os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666))
     except OSError as exc:
+        failure = write_failure(target, exc)
+        if isinstance(failure, DiskFullError):
+            raise failure from None
         raise OutputError(f"{target}: cannot write there ({exc.strerror}); "
                           f"check that the output directory exists and is writable") from None
-    os.close(fd)
-    tmp = Path(tmp)
     try:
         yield tmp
+        fsync_file(tmp)
         os.replace(tmp, target)
+    except OSError as exc:
+        failure = write_failure(target, exc, need=_size(tmp))
+        tmp.unlink(missing_ok=True)
+        if isinstance(failure, DiskFullError):
+            raise failure from None
+        raise
     except BaseException:
         tmp.unlink(missing_ok=True)
         raise
+
+
+def _size(path: Path) -> int:
+    try:
+        return path.stat().st_size
+    except OSError:
+        return 0

@@ -5,36 +5,50 @@ bounds a run, and GDAL's COG driver needs a finished source.  So blocks are
 stored uncompressed into a tiled intermediate beside the target (cheap, and
 in the page cache), then GDAL's COG driver compresses once, with overviews,
 using every core, and the result is renamed into place.  No product ever sits
-half-written at its final path; temporaries carry ``.radledger-partial`` in
-their name so a later run can sweep up what a killed one left.
+half-written at its final path; temporaries carry ``.radledger-partial`` and
+their owner in their name so a later run can sweep up what a killed one left.
+
+GDAL does not report every failed write (a full disk while it flushes its
+block cache is only recorded in its error state, and the COG driver can
+finish a truncated file without an error), so every write is checked: GDAL's
+error state after each block and close, every tile that received data present
+in the intermediate, and before the rename every tile of the COG inside the
+file, its last tile and smallest overview decoded, and the file synced to disk.
+A failure raises :class:`~radledger.errors.DiskFullError` or
+:class:`~radledger.errors.WriteError` and removes the temporaries.
 """
 
 from __future__ import annotations
 
 import contextlib
-import glob
 import os
 import threading
-import uuid
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Callable
 
 from xml.sax.saxutils import escape
 
 import numpy as np
 import rasterio
-from affine import Affine
+import rasterio._err
+import rasterio.errors
 import rasterio.shutil
+from affine import Affine
 from rasterio.windows import Window
 
+from ..errors import RadledgerError
 from ..grid import TargetGrid
+from .atomic import fsync_file
+from .gdalapi import GdalFailure, gdal_failures
 from .gdalenv import gdal_env
+from .lock import PARTIAL_MARK, partial_token, sweep_partials
 from .overviews import level_shape, overview_factors, reduce_level
+from .space import write_failure
 
 __all__ = ["COG_DEFAULTS", "COMPRESSIONS", "ProductFile", "WindowSink", "sweep_partials", "read_tags",
-           "is_current", "PARTIAL_MARK"]
+           "is_current", "PARTIAL_MARK", "verify_cog", "before_rename"]
 
-PARTIAL_MARK = ".radledger-partial"
 QUOTE = {'"': "&quot;"}
 
 # The one place for COG settings.  ZSTD level 1: ~5x faster than the default
@@ -58,6 +72,11 @@ _INTERMEDIATE = {"driver": "GTiff", "tiled": True, "blockxsize": 512, "blockysiz
 # Handles open for writing in this process, so threads of a local run share one.
 _open_for_write: dict[str, rasterio.io.DatasetWriter] = {}
 _closed_here: set[str] = set()   # paths whose handle this process opened and closed
+# checks run just before a finished product is renamed into place (the runner's input guard)
+_before_rename: list[Callable[[Path], None]] = []
+TILE = 512
+#: what a failed write can raise: OS errors (rasterio's included) and GDAL's own errors
+_WRITE_ERRORS = (OSError, rasterio.errors.RasterioError, rasterio._err.CPLE_BaseError)
 
 
 COMPRESSIONS = tuple(CODEC_LEVEL)
@@ -79,11 +98,23 @@ class WindowSink:
     In the process that created the file it writes through the open handle; on
     a distributed worker it reopens the file ``r+`` for each block.  Either way
     ``lock`` (a threading lock locally, a ``distributed.Lock`` on a cluster)
-    serialises writers of the same file.
+    serialises writers of the same file, and GDAL's error state is checked
+    after each write.  Locally it also notes which 512 x 512 tiles received
+    data, so the product can check they all reached the disk.
     """
 
-    def __init__(self, path: str, lock, dtype: str):
+    def __init__(self, path: str, lock, dtype: str, *, final: str | None = None, nodata: float = float("nan"),
+                 need: int = 0):
         self.path, self.lock, self.dtype = path, lock, dtype
+        self.final = final or path
+        self.nodata = nodata
+        self.need = need              # bytes the file grows to (for a disk-full message)
+        self.touched: set[tuple[int, int]] = set()
+
+    def __getstate__(self):
+        state = dict(self.__dict__)
+        state["touched"] = set()     # a worker's copy starts empty; only the local run checks it
+        return state
 
     def __setitem__(self, key, value):
         rows, cols = key[-2], key[-1]
@@ -97,14 +128,29 @@ class WindowSink:
             block = block.astype(np.float32, copy=False)
         with self.lock:
             ds = _open_for_write.get(self.path)
-            if ds is not None and not ds.closed:
-                ds.write(block, 1, window=win)
-            elif self.path in _closed_here:
-                # a local run that was stopped: its handles are closed and the files removed
-                raise RuntimeError(f"{self.path}: product aborted")
-            else:
-                with gdal_env(), rasterio.open(self.path, "r+") as ds2:
-                    ds2.write(block, 1, window=win)
+            try:
+                if ds is not None and not ds.closed:
+                    with gdal_failures(self.path):
+                        ds.write(block, 1, window=win)
+                    self._note(block, int(win.row_off), int(win.col_off))
+                elif self.path in _closed_here:
+                    # a local run that was stopped: its handles are closed and the files removed
+                    raise RuntimeError(f"{self.path}: product aborted")
+                else:
+                    with gdal_failures(self.path), gdal_env(), rasterio.open(self.path, "r+") as ds2:
+                        ds2.write(block, 1, window=win)
+            except _WRITE_ERRORS as exc:
+                raise write_failure(self.final, exc, need=self.need) from None
+
+    def _note(self, block: np.ndarray, r0: int, c0: int) -> None:
+        """Remember the tiles this block put data into (nodata-only tiles may stay sparse)."""
+        h, w = block.shape
+        for tr in range(r0 // TILE, (r0 + h - 1) // TILE + 1):
+            for tc in range(c0 // TILE, (c0 + w - 1) // TILE + 1):
+                sub = block[max(tr * TILE - r0, 0):(tr + 1) * TILE - r0, max(tc * TILE - c0, 0):(tc + 1) * TILE - c0]
+                valid = np.isfinite(sub) if np.isnan(self.nodata) else sub != self.nodata
+                if valid.any():
+                    self.touched.add((tr, tc))
 
 
 @dataclass
@@ -127,9 +173,8 @@ class ProductFile:
     categorical: bool = False     # overviews by nearest pixel (bit flags), not by averaging
 
     def __post_init__(self):
-        token = f"{os.getpid()}-{uuid.uuid4().hex[:8]}"
         self.final = Path(self.final)
-        stem = str(self.final.parent / f".{self.final.stem}{PARTIAL_MARK}-{token}")
+        stem = str(self.final.parent / f".{self.final.stem}{PARTIAL_MARK}-{partial_token()}")
         self.intermediate = f"{stem}.raw.tif"
         self.partial_cog = f"{stem}.cog.tif"
         self.vrt = f"{stem}.vrt"
@@ -138,9 +183,16 @@ class ProductFile:
         self.level_files = {f: f"{stem}.ov{f}.tif" for f in self.factors}
         self._lock = threading.Lock()
         self._sink_locks: dict[str, object] = {}
+        self._sinks: list[WindowSink] = []
+        self._kept_open = False
+
+    @property
+    def need(self) -> int:
+        """Bytes of the largest temporary (the uncompressed intermediate)."""
+        return self.grid.width * self.grid.height * np.dtype(self.dtype).itemsize
 
     def _create(self, path: str, width: int, height: int, transform, keep_open: bool, tags=None):
-        with gdal_env():
+        with gdal_failures(path), gdal_env():
             ds = rasterio.open(path, "w", width=width, height=height, count=1, dtype=self.dtype,
                                crs=self.grid.crs, transform=transform, nodata=self.nodata, **_INTERMEDIATE)
         if tags:
@@ -149,7 +201,8 @@ class ProductFile:
         if keep_open:
             _open_for_write[path] = ds
         else:
-            ds.close()
+            with gdal_failures(path):
+                ds.close()
 
     # -- stage 1: the tiled intermediates, open for block writes
     def create(self, *, keep_open: bool = True) -> None:
@@ -159,21 +212,27 @@ class ProductFile:
         ``r+``: a handle held open here would keep the header in memory and,
         when closed, rewrite the tile index over what the workers wrote.
         """
-        self.final.parent.mkdir(parents=True, exist_ok=True)
-        self._create(self.intermediate, self.grid.width, self.grid.height, self.grid.transform, keep_open,
-                     self.tags)
-        for f in self.in_task:
-            h, w = level_shape(self.grid.height, self.grid.width, f)
-            self._create(self.level_files[f], w, h, _scaled(self.grid.transform, f), keep_open)
+        self._kept_open = keep_open
+        try:
+            self.final.parent.mkdir(parents=True, exist_ok=True)
+            self._create(self.intermediate, self.grid.width, self.grid.height, self.grid.transform, keep_open,
+                         self.tags)
+            for f in self.in_task:
+                h, w = level_shape(self.grid.height, self.grid.width, f)
+                self._create(self.level_files[f], w, h, _scaled(self.grid.transform, f), keep_open)
+        except _WRITE_ERRORS as exc:
+            raise write_failure(self.final, exc, need=self.need) from None
 
     def sink(self, lock=None, factor: int = 1) -> WindowSink:
         path = self.intermediate if factor == 1 else self.level_files[factor]
         lock = lock if lock is not None else self._lock
         self._sink_locks[path] = lock
-        return WindowSink(path, lock, self.dtype)
+        sink = WindowSink(path, lock, self.dtype, final=str(self.final), nodata=self.nodata, need=self.need)
+        self._sinks.append(sink)
+        return sink
 
-    def close_intermediate(self) -> None:
-        """Close the handles, each under its writers' lock.
+    def close_intermediate(self, *, check: bool = False) -> None:
+        """Close the handles, each under its writers' lock; ``check``: raise if a write was lost.
 
         On an interrupted run other threads may still be inside a block write;
         closing a GDAL dataset under them crashed the process (SIGSEGV), so the
@@ -187,21 +246,43 @@ class ProductFile:
                 _open_for_write.pop(path, None)
                 _closed_here.add(path)
                 if not ds.closed:
-                    ds.close()
+                    if check:
+                        with gdal_failures(path):
+                            ds.close()
+                    else:
+                        ds.close()
+        if check and self._kept_open:
+            for sink in self._sinks:
+                _check_tiles(sink.path, sink.touched)
 
-    # -- stage 2: one compression pass into a COG, then rename into place
+    # -- stage 2: one compression pass into a COG, checked, then renamed into place
     def finish(self) -> Path:
-        self.close_intermediate()
-        opts = cog_options(self.compression, categorical=self.categorical)
-        source = self.intermediate
-        if self.in_task:
-            self._coarser_levels()
-            self._write_vrt()
-            source = self.vrt
-            opts["OVERVIEWS"] = "FORCE_USE_EXISTING"
-        with gdal_env(GDAL_NUM_THREADS="ALL_CPUS"):
-            rasterio.shutil.copy(source, self.partial_cog, driver="COG", **opts)
-        os.replace(self.partial_cog, self.final)
+        try:
+            self.close_intermediate(check=True)
+            opts = cog_options(self.compression, categorical=self.categorical)
+            source = self.intermediate
+            if self.in_task:
+                self._coarser_levels()
+                self._write_vrt()
+                source = self.vrt
+                opts["OVERVIEWS"] = "FORCE_USE_EXISTING"
+            with gdal_failures(self.partial_cog), gdal_env(GDAL_NUM_THREADS="ALL_CPUS"):
+                try:
+                    rasterio.shutil.copy(source, self.partial_cog, driver="COG", **opts)
+                except SystemError as exc:   # rasterio: GDAL returned nothing and said nothing
+                    raise GdalFailure(f"{self.partial_cog}: the COG copy failed ({exc})") from None
+            verify_cog(self.partial_cog, width=self.grid.width, height=self.grid.height, dtype=self.dtype)
+            fsync_file(self.partial_cog)
+            for check in list(_before_rename):
+                check(self.final)
+            os.replace(self.partial_cog, self.final)
+        except RadledgerError:
+            self.abort()
+            raise
+        except _WRITE_ERRORS as exc:
+            failure = write_failure(self.final, exc, need=self.need)   # judged before cleaning up
+            self.abort()
+            raise failure from None
         self._remove_temporaries()
         return self.final
 
@@ -217,7 +298,7 @@ class ProductFile:
             level = reduce_level(a, f // base, nearest=self.categorical)
             h, w = level.shape
             self._create(self.level_files[f], w, h, _scaled(self.grid.transform, f), keep_open=False)
-            with gdal_env(), rasterio.open(self.level_files[f], "r+") as ds:
+            with gdal_failures(self.level_files[f]), gdal_env(), rasterio.open(self.level_files[f], "r+") as ds:
                 ds.write(level, 1)
 
     def _write_vrt(self) -> None:
@@ -237,7 +318,8 @@ class ProductFile:
                f'<SimpleSource><SourceFilename relativeToVRT="1">{escape(os.path.basename(self.intermediate))}'
                f'</SourceFilename><SourceBand>1</SourceBand></SimpleSource>{overviews}</VRTRasterBand>'
                f'</VRTDataset>')
-        Path(self.vrt).write_text(xml, encoding="utf-8")
+        with open(self.vrt, "w", encoding="utf-8") as fh:
+            fh.write(xml)
 
     def _remove_temporaries(self) -> None:
         for path in [self.intermediate, self.vrt, self.partial_cog, *self.level_files.values()]:
@@ -248,6 +330,69 @@ class ProductFile:
         self._remove_temporaries()
 
 
+def _check_tiles(path: str, touched: set[tuple[int, int]]) -> None:
+    """Every tile that received data is stored inside the file (a lost write leaves it sparse)."""
+    if not touched:
+        return
+    size = os.path.getsize(path)
+    with gdal_env(), rasterio.open(path) as ds:
+        for tr, tc in sorted(touched):
+            off = ds.get_tag_item(f"BLOCK_OFFSET_{tc}_{tr}", "TIFF", bidx=1)
+            n = ds.get_tag_item(f"BLOCK_SIZE_{tc}_{tr}", "TIFF", bidx=1)
+            if not off or not n or int(off) + int(n) > size:
+                raise OSError(f"{path}: tile ({tr}, {tc}) was written but is not in the file")
+
+
+def verify_cog(path: str, *, width: int, height: int, dtype: str) -> None:
+    """Raise ``OSError`` unless ``path`` is a whole COG: header, every tile, last tile, smallest overview.
+
+    Each tile of the image and of every overview must lie inside the file;
+    the last tile of the image (written last) and the whole smallest overview
+    are decoded.
+    """
+    size = os.path.getsize(path)
+    with gdal_failures(path), gdal_env():
+        with rasterio.open(path) as ds:
+            if (ds.width, ds.height, ds.dtypes[0]) != (width, height, dtype):
+                raise OSError(f"{path}: header says {ds.width} x {ds.height} {ds.dtypes[0]}, "
+                              f"expected {width} x {height} {dtype}")
+            n_levels = len(ds.overviews(1))
+            _tiles_inside(ds, size, None)
+            bh, bw = ds.block_shapes[0]
+            r0, c0 = (height - 1) // bh * bh, (width - 1) // bw * bw
+            ds.read(1, window=Window(c0, r0, width - c0, height - r0))
+        for level in range(n_levels):
+            with rasterio.open(path, overview_level=level) as ov:
+                _tiles_inside(ov, size, level)
+                if level == n_levels - 1:
+                    ov.read(1)
+
+
+def _tiles_inside(ds, size: int, level) -> None:
+    bh, bw = ds.block_shapes[0]
+    for r in range(-(-ds.height // bh)):
+        for c in range(-(-ds.width // bw)):
+            off = ds.get_tag_item(f"BLOCK_OFFSET_{c}_{r}", "TIFF", bidx=1)
+            n = ds.get_tag_item(f"BLOCK_SIZE_{c}_{r}", "TIFF", bidx=1)
+            if not off or not n or int(off) + int(n) > size:
+                where = "image" if level is None else f"overview {level + 1}"
+                raise OSError(f"{ds.name}: tile ({r}, {c}) of the {where} is missing or cut off")
+
+
+@contextlib.contextmanager
+def before_rename(check: Callable[[Path], None]):
+    """Within the block, ``check(final_path)`` runs before each product is renamed into place.
+
+    ``check`` may raise (a :class:`~radledger.errors.RadledgerError`); the
+    product is then removed instead of renamed.
+    """
+    _before_rename.append(check)
+    try:
+        yield
+    finally:
+        _before_rename.remove(check)
+
+
 def _scaled(t: Affine, f: int) -> Affine:
     """The transform of an overview ``f`` times coarser (same origin)."""
     return Affine(t.a * f, t.b * f, t.c, t.d * f, t.e * f, t.f)
@@ -256,14 +401,6 @@ def _scaled(t: Affine, f: int) -> Affine:
 def _remove(path: str) -> None:
     with contextlib.suppress(FileNotFoundError):
         os.remove(path)
-
-
-def sweep_partials(directory: Path) -> list[str]:
-    """Remove temporaries an interrupted or killed run left under ``directory``."""
-    found = glob.glob(str(Path(directory) / "**" / f".*{PARTIAL_MARK}-*"), recursive=True)
-    for f in found:
-        _remove(f)
-    return found
 
 
 def is_current(path: Path, settings_hash: str) -> bool:

@@ -1,11 +1,20 @@
-"""Zone polygons (basins, sub-basins): read any OGR vector, check the ids, repair, reproject."""
+"""Zone polygons (basins, sub-basins): read any OGR vector, check the ids, repair, reproject.
+
+Geometry work is bounded, so a hostile or broken file fails in seconds: at
+most :data:`MAX_VERTICES` vertices per file, and an invalid polygon is
+repaired only if its edges cross each other at most :data:`MAX_CROSSINGS`
+times (repairing costs grow with the square of the crossings; a digitising
+slip crosses a handful of times).  The repair runs in a helper thread while
+the main thread waits in short steps, so SIGINT/SIGTERM stop it promptly.
+"""
 
 from __future__ import annotations
 
 import math
 import os
+import threading
 from dataclasses import dataclass
-from typing import Sequence
+from typing import Callable, Sequence
 
 import numpy as np
 import shapely
@@ -14,9 +23,11 @@ from pyproj import CRS, Transformer
 from ..errors import InputError
 from ..grid import TargetGrid
 
-__all__ = ["Zones", "read_zones"]
+__all__ = ["Zones", "read_zones", "MAX_VERTICES", "MAX_CROSSINGS", "self_crossings", "interruptible"]
 
 _POLYGONAL = ("Polygon", "MultiPolygon")
+MAX_VERTICES = 1_000_000     # per zone file
+MAX_CROSSINGS = 1_000        # per invalid polygon, to be repaired
 
 
 
@@ -134,6 +145,10 @@ def read_zones(path: str | os.PathLike, id_field: str, grid: TargetGrid, *, laye
         raise InputError(f"zones.id: {path}: duplicate {id_field} values {shown}; every zone needs its own id")
 
     geoms = shapely.from_wkb(wkb)
+    n_vertices = int(shapely.get_num_coordinates(geoms).sum())
+    if n_vertices > MAX_VERTICES:
+        raise InputError(f"zones.path: {path}: {n_vertices:,} vertices, more than {MAX_VERTICES:,}; simplify the "
+                         f"polygons in a GIS (zones need far less detail than the grid's pixels)")
     types = shapely.get_type_id(geoms)
     if not any(t in (3, 6) for t in types):  # Polygon, MultiPolygon
         kinds = sorted({g.geom_type for g in geoms if g is not None} or {"none"})
@@ -164,6 +179,15 @@ def _polygonal(geom, zone_id, path: str):
         raise InputError(f"zones.path: {path}: zone {zone_id!r} is a {geom.geom_type}; zones must be polygons")
     if geom.is_valid:
         return geom
+    return interruptible(_repair, geom, zone_id, path)
+
+
+def _repair(geom, zone_id, path: str):
+    crossings = self_crossings(geom, limit=MAX_CROSSINGS)
+    if crossings > MAX_CROSSINGS:
+        raise InputError(f"zones.path: {path}: zone {zone_id!r} has an invalid polygon whose edges cross each other "
+                         f"more than {MAX_CROSSINGS:,} times, too tangled to repair here; fix it in a GIS "
+                         f"(e.g. 'fix geometries') or check the vertex order")
     fixed = shapely.make_valid(geom)
     parts = [p for p in shapely.get_parts(fixed) if p.geom_type in _POLYGONAL and not p.is_empty]
     fixed = shapely.union_all(parts) if parts else None
@@ -172,3 +196,54 @@ def _polygonal(geom, zone_id, path: str):
         raise InputError(f"zones.path: {path}: zone {zone_id!r} has an invalid polygon ({reason}) that cannot be "
                          f"repaired; fix it in a GIS (e.g. 'fix geometries')")
     return fixed
+
+
+def self_crossings(geom, *, limit: int | None = None) -> int:
+    """How many times the edges of polygon ``geom`` cross each other (counting stops past ``limit``).
+
+    Pairs of edges are found with an STR tree, a few edges at a time, so a
+    hopelessly tangled polygon is recognised after little work.
+    """
+    rings = shapely.get_rings(shapely.get_parts(geom))
+    segments = []
+    for ring in rings:
+        xy = shapely.get_coordinates(ring)
+        if len(xy) > 1:
+            segments.append(np.stack([xy[:-1], xy[1:]], axis=1))
+    if not segments:
+        return 0
+    lines = shapely.linestrings(np.concatenate(segments))
+    tree = shapely.STRtree(lines)
+    total, start, step = 0, 0, 1
+    while start < len(lines):
+        a, b = tree.query(lines[start:start + step], predicate="crosses")
+        total += int(np.count_nonzero(a + start < b))     # each pair once
+        if limit is not None and total > limit:
+            break
+        start += step
+        step = min(step * 2, 4096)
+    return total
+
+
+def interruptible(fn: Callable, *args):
+    """``fn(*args)`` in a helper thread; the calling thread waits in short steps, so signals reach it.
+
+    A long C call (GEOS) in the main thread would hold back SIGINT/SIGTERM
+    handlers until it returned; waiting here lets them run at once.  If the
+    wait is interrupted, the helper (a daemon thread) is abandoned.
+    """
+    box: dict = {}
+
+    def target():
+        try:
+            box["value"] = fn(*args)
+        except BaseException as exc:   # handed to the caller below
+            box["error"] = exc
+
+    t = threading.Thread(target=target, name="radledger-geometry", daemon=True)
+    t.start()
+    while t.is_alive():
+        t.join(0.05)
+    if "error" in box:
+        raise box["error"]
+    return box["value"]

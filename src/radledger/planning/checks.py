@@ -5,7 +5,9 @@
   implies.  This catches the common slips (degC declared K, hPa or Pa declared
   kPa, a missing albedo scale) before any product is written.  The bounds are
   common practice, deliberately wide.
-* The output folder is writable and the products fit on its disk.
+* The output folder is writable and the products fit on its disk; the
+  estimate counts only products that are not on disk yet, so a rerun after
+  freeing space resumes without ``--force``.
 * The land-cover classes within the grid (for the emissivity table).
 """
 
@@ -13,6 +15,7 @@ from __future__ import annotations
 
 import os
 import shutil
+from typing import Iterable
 
 import numpy as np
 
@@ -20,9 +23,10 @@ from ..errors import OutputError, RadledgerError, UnitError
 from ..grid import TargetGrid
 from ..io.gdalenv import gdal_env
 from ..io.rasters import LayerSource, open_dataset
+from ..io.space import human_bytes
 from ..kinds import TimeKind
 
-__all__ = ["check_sample", "output_problems", "land_cover_classes", "human_bytes"]
+__all__ = ["check_sample", "output_problems", "land_cover_classes", "human_bytes", "remaining_bytes"]
 
 
 def _median(a: np.ndarray) -> float | None:
@@ -88,12 +92,16 @@ def _key(layer: str) -> str:
     return "air_temperature" if layer.startswith("air_temperature_") else layer
 
 
-def human_bytes(n: float) -> str:
-    for unit in ("B", "KB", "MB", "GB", "TB"):
-        if n < 1024 or unit == "TB":
-            return f"{n:.1f} {unit}"
-        n /= 1024
-    return f"{n:.1f} TB"
+def remaining_bytes(pixels: int, targets: Iterable, in_flight: int) -> int:
+    """A generous estimate of the disk still needed for ``targets`` (product paths) on a grid of ``pixels``.
+
+    4 bytes per pixel for each product not on disk yet (a float32 COG with
+    overviews is smaller after compression), plus the uncompressed
+    intermediates of ``in_flight`` products being written; 0 when every
+    product exists.
+    """
+    missing = sum(1 for t in targets if not os.path.exists(t))
+    return int(pixels) * 4 * (missing + in_flight) if missing else 0
 
 
 def output_problems(out, need: int, *, force: bool) -> list[RadledgerError]:

@@ -23,9 +23,9 @@ from ..model.needs import day_needs, scene_needs
 from ..model.params import DayParams, SceneParams
 from ..model.products import DAY_PRODUCTS, SCENE_DAY_PRODUCT, SCENE_PRODUCTS
 from .checks import check_sample
-from .provenance import settings_hash
+from .provenance import settings_hash, sources_fingerprint
 from .sources import MissingInput, input_source
-from .stations import StationInputs, read_observations, sources_fingerprint_with_stations as sources_fingerprint
+from .stations import StationInputs, read_observations
 
 __all__ = ["JobBuilder", "DEFAULT_ALBEDO_NOTE", "SAMPLE_CHECKS_PER_INPUT"]
 

@@ -14,7 +14,9 @@ import os
 
 from .._version import __version__
 from ..config import CompositeSpec, Config
+from ..io.paths import is_remote
 from ..io.rasters import LayerSource
+from ..io.remote import remote_fingerprint
 from ..kinds import TimeKind
 from ..model.products import SCENE_DAY_PRODUCT, Product, product_info
 
@@ -22,30 +24,48 @@ __all__ = ["file_fingerprint", "sources_fingerprint", "settings_hash", "product_
            "composite_tags"]
 
 
-def file_fingerprint(path: str) -> list:
+def file_fingerprint(path: str, *, fresh: bool = False) -> list:
+    """What changes whenever the content of input ``path`` changes (README: reruns and fingerprints).
+
+    Local files: size, modification and change times (ns), inode and device,
+    so a rewrite that keeps size and mtime (``touch -r``, ``cp -p``,
+    ``rsync -t``) still changes the change time or the inode.  Remote inputs:
+    the ETag, else the Last-Modified, of a HEAD request (see
+    :func:`radledger.io.remote.remote_fingerprint`; ``fresh`` asks again even
+    within a fingerprint session).  A missing file gives just its path.
+    """
+    if is_remote(path):
+        return [path, *remote_fingerprint(path, fresh=fresh)]
     try:
         st = os.stat(path)
-        return [path, st.st_size, st.st_mtime_ns]
-    except OSError:
+    except (OSError, ValueError):
         return [path]
+    return [path, st.st_size, st.st_mtime_ns, st.st_ctime_ns, st.st_ino, st.st_dev]
 
 
-def source_fingerprint(src) -> list:
-    """What a product depends on in one source: its file(s), the steps read, the decoding."""
+def source_fingerprint(src, *, fresh: bool = False) -> list:
+    """What a product depends on in one source: its file(s), the steps read, the decoding.
+
+    A source made by this run itself (a weather grid from stations) says what it depends on
+    through its ``identity()``.
+    """
+    own = getattr(src, "identity", None)
+    if callable(own):
+        return own()
     scenes = getattr(src, "scenes", None)
     if scenes is not None:    # a day's albedo between scenes: each scene's albedo, and the day
-        return ["albedo between scenes", str(src.day), src.max_gap] + [[str(t), source_fingerprint(s)]
+        return ["albedo between scenes", str(src.day), src.max_gap] + [[str(t), source_fingerprint(s, fresh=fresh)]
                                                                        for t, s in scenes]
-    parts = file_fingerprint(src.path) + [src.scale, src.offset, src.nodata, src.factor, src.shift,
-                                          src.resampling]
+    parts = file_fingerprint(src.path, fresh=fresh) + [src.scale, src.offset, src.nodata, src.factor, src.shift,
+                                                       src.resampling]
     if getattr(src, "variable", None) is not None:   # a time stack: which steps, how weighted
         parts += [src.variable, list(src.steps), list(src.weights)]
     return parts
 
 
-def sources_fingerprint(srcs: dict[str, LayerSource]) -> list:
+def sources_fingerprint(srcs: dict[str, LayerSource], *, fresh: bool = False) -> list:
     """What a product depends on in its inputs: each source's files, steps and decoding."""
-    return [source_fingerprint(s) for s in srcs.values()]
+    return [source_fingerprint(s, fresh=fresh) for s in srcs.values()]
 
 
 def settings_hash(*parts) -> str:

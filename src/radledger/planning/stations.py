@@ -30,7 +30,7 @@ from .provenance import settings_hash, source_fingerprint
 from .sources import MissingInput, layer_conversion
 
 __all__ = ["WeatherGrid", "StationGridSource", "StationInputs", "weather_grids", "read_observations",
-           "sources_fingerprint_with_stations", "when_text", "stamp_of"]
+           "when_text", "stamp_of"]
 
 
 def stamp_of(when) -> str:
@@ -78,11 +78,9 @@ class StationGridSource(LayerSource):
     """The gridded product of a weather layer, read like any raster on the grid; ``weather`` says how it is made."""
     weather: WeatherGrid | None = None
 
-
-def sources_fingerprint_with_stations(srcs: dict) -> list:
-    """What a job depends on in its sources; a gridded layer by its grid's settings hash (not the file's date)."""
-    return [["stations", s.weather.settings_hash] if isinstance(s, StationGridSource) else source_fingerprint(s)
-            for s in srcs.values()]
+    def identity(self) -> list:
+        """What a job depends on here: the grid's settings hash (the file is written by this run)."""
+        return ["stations", self.weather.settings_hash]
 
 
 def weather_grids(jobs) -> list[WeatherGrid]:

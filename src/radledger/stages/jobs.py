@@ -1,9 +1,10 @@
 """Stage 1: every scene and day, in batches of dates; each product written as soon as it is complete.
 
 Dates are computed in batches (one task per chunk handles every date of a batch, so what is the
-same for all of them is done once per chunk); while one batch's products get their single
-compression pass into COGs, in a background thread, the next batch computes.  Both cores stay
-busy, and each batch's products appear as soon as its compression is done.
+same for all of them is done once per chunk); while one batch of days gets its single compression
+pass into COGs, in a background thread, the next batch computes.  Both cores stay busy, and each
+batch's products appear as soon as its compression is done.  A scene is a batch of its own,
+compressed before the next one starts (it is large, and its products should appear at once).
 """
 
 from __future__ import annotations
@@ -23,8 +24,9 @@ __all__ = ["run_jobs", "batches", "BATCH_DATES"]
 
 #: dates computed together by one chunk task: what is the same for every date (static layers,
 #: coordinates, resampling geometry) is done once per batch; each batch's products appear together.
-#: Days share more (their weather grids) and are cheaper than scenes, so their batches are longer.
-BATCH_DATES = {TimeKind.DAYS: 8, TimeKind.SCENES: 4}
+#: Days share most (static layers, the weather grids' geometry) and are cheap; a scene is costly and
+#: shares little, so each scene is its own batch and its products appear as soon as it is done.
+BATCH_DATES = {TimeKind.DAYS: 8, TimeKind.SCENES: 1}
 
 
 def batches(jobs: list[Job], size: dict = BATCH_DATES) -> list[list[Job]]:
@@ -61,8 +63,8 @@ def run_jobs(plan: Plan, engine: Engine, *, overwrite: bool, streams: tuple = ()
             if previous is not None:
                 collect(previous.result())
                 previous = None
-            if pool is None:
-                collect(pending.finish())
+            if pool is None or batch[0].kind is TimeKind.SCENES:
+                collect(pending.finish())    # a scene is big and stands alone: compress it before the next
             else:
                 previous = pool.submit(pending.finish)
             pending = None
