@@ -279,3 +279,76 @@ def test_a_multiband_raster_is_refused_with_its_band_count(tmp_path, capsys):
     assert main(["check", str(cfg)]) == 2
     err = capsys.readouterr().err
     assert "stack.tif" in err and "3 bands" in err and "variable" in err
+
+
+@pytest.mark.parametrize("layout", ["utm-grid-mapping", "lat-increasing"])
+def test_a_stack_with_a_cf_grid_mapping_or_south_up_rows_equals_the_same_field_as_rasters(tmp_path, layout):
+    f = _static(tmp_path)
+    h, w = SHAPE
+    rng = np.random.default_rng(5)
+    field = (290 + 5 * rng.random((2,) + SHAPE)).astype(np.float32)       # Tmax [K], two days, on the grid
+    x = X0 + RES * (np.arange(w) + 0.5)
+    y = Y0 - RES * (np.arange(h) + 0.5)
+    if layout == "utm-grid-mapping":
+        from pyproj import CRS as ProjCRS
+        ds = xr.Dataset({"tmax": (("time", "y", "x"), field, {"units": "K", "grid_mapping": "crs"}),
+                         "crs": ((), 0, ProjCRS.from_user_input(CRS_UTM).to_cf())},
+                        coords={"time": DAYS[:2], "x": x, "y": y})
+    else:   # the same field on lon/lat rows stored south to north: warped, so compare with GDAL's warp
+        pytest.importorskip("h5netcdf")
+        lons, lats = _lonlat_grid()
+        vals = np.stack([np.add.outer(290 + 0.5 * np.arange(lats.size), 0.3 * np.arange(lons.size))] * 2)
+        ds = xr.Dataset({"tmax": (("time", "lat", "lon"), vals[:, ::-1].astype(np.float32), {"units": "K"})},
+                        coords={"time": DAYS[:2], "lat": ("lat", lats[::-1], {"units": "degrees_north"}),
+                                "lon": ("lon", lons, {"units": "degrees_east"})})
+        field = np.stack([_warp(v, lons, lats) for v in vals]).astype(np.float32)
+    ds.to_netcdf(tmp_path / "tmax.nc", engine="h5netcdf")
+    for n, v in (("tmin", 285.0), ("ea", 1.3), ("rsd", 23.0)):
+        write_tif(tmp_path / f"{n}.tif", np.full(SHAPE, v, np.float32), transform=T_GRID)
+    day = {"dates": {"start": "2026-06-01", "end": "2026-06-02"}, "shortwave_down": "rsd.tif",
+           "air_temperature_min": "tmin.tif", "vapour_pressure": "ea.tif"}
+    cfg = _config(tmp_path, days=[{**day, "air_temperature_max": {"path": "tmax.nc", "variable": "tmax"}}])
+    run_config(load_config(cfg))
+    lat = _pixel_lat()
+    for k in range(2):
+        got = read(tmp_path / "out" / "days" / f"net_radiation_2026060{k + 1}.tif")
+        exp = daily_net_radiation(23.0, field[k].astype(float), 285.0, 1.3, lat, 152 + k, f["elev"].astype(float))
+        np.testing.assert_array_equal(np.isnan(got), np.isnan(exp))
+        assert np.nanmax(np.abs(got - exp)) < 0.02
+
+
+def test_season_composites_streamed_and_read_back_equal_numpy_over_the_days(tmp_path):
+    _static(tmp_path)
+    name, _, _, _ = _write_stacks(tmp_path)
+    day = {"dates": {"start": "2026-06-01", "end": "2026-06-10"},
+           "shortwave_down": {"path": name, "variable": "rsds"},
+           "air_temperature_max": {"path": name, "variable": "tmax"},
+           "air_temperature_min": {"path": name, "variable": "tmin"},
+           "vapour_pressure": {"path": name, "variable": "vp"}}
+    streamed = ["mean", "total", "sum", "count", "std", "min", "max"]
+    comps = [{"name": "early", "from": "days", "start": "2026-06-01", "end": "2026-06-06", "statistics": streamed,
+              "min_count": 2},
+             {"name": "whole", "from": "days", "start": "2026-06-01", "end": "2026-06-10",
+              "statistics": ["median", "mean"]}]
+    cfg = _config(tmp_path, days=[day], composites=comps)
+    for attempt in ("first run (accumulated while the days stream)", "rerun with one day to redo (read back)"):
+        run_config(load_config(cfg))
+        days = np.stack([read(tmp_path / "out" / "days" / f"net_radiation_{d:%Y%m%d}.tif") for d in DAYS])
+        early = days[:6].astype(np.float64)
+        n = np.sum(~np.isnan(early), axis=0)
+        with np.errstate(all="ignore"):
+            expected = {"mean": np.nanmean(early, 0), "total": np.nanmean(early, 0) * 6, "sum": np.nansum(early, 0),
+                        "count": n, "std": np.nanstd(early, 0), "min": np.nanmin(early, 0), "max": np.nanmax(early, 0)}
+        for s, exp in expected.items():
+            if s != "count":
+                exp = np.where(n >= 2, exp, np.nan)
+            got = read(tmp_path / "out" / "composites" / f"early_{s}.tif")
+            np.testing.assert_allclose(got, exp, rtol=1e-5, atol=1e-4, equal_nan=True, err_msg=f"{attempt}: {s}")
+        with np.errstate(all="ignore"):
+            np.testing.assert_allclose(read(tmp_path / "out" / "composites" / "whole_median.tif"),
+                                       np.nanmedian(days, 0), rtol=1e-5, atol=1e-4, equal_nan=True)
+        assert not list((tmp_path / "out" / "composites").glob(".*")), "no accumulation files left behind"
+        # one day and the composites to redo: the other days are on disk, so the composites read them back
+        (tmp_path / "out" / "days" / "net_radiation_20260603.tif").unlink()
+        for p in (tmp_path / "out" / "composites").glob("*.tif"):
+            p.unlink()

@@ -140,13 +140,23 @@ def _stages(plan: Plan, engine: Engine, report: RunReport, overwrite: bool) -> N
     if cfg.stations is not None:
         from .stages.weather import run_weather
         add("weather", *run_weather(plan, engine, overwrite=overwrite))
-    report.results = run_jobs(plan, engine, overwrite=overwrite)
+    streams = {}
+    if cfg.composites:   # composites whose dates are all computed now accumulate as the dates go by
+        from .stages.streams import composite_streams
+        streams = {s.comp.name: s for s in composite_streams(plan, engine, overwrite=overwrite)}
+    try:
+        report.results = run_jobs(plan, engine, overwrite=overwrite, streams=tuple(streams.values()))
+    except BaseException:
+        for s in streams.values():
+            s.acc.remove()
+        raise
     for r in report.results:
         report.written += r.written
         report.skipped += r.skipped
     for comp in cfg.composites:
         from .stages.composites import run_composite
-        add(f"composite {comp.name}", *run_composite(plan, comp, engine, overwrite=overwrite))
+        add(f"composite {comp.name}", *run_composite(plan, comp, engine, overwrite=overwrite,
+                                                     stream=streams.get(comp.name)))
     if cfg.zones is not None:
         from .stages.zones import run_zones
         add("zones", run_zones(plan, engine))

@@ -142,12 +142,15 @@ def _batch_task(batch: tuple, grid: TargetGrid, window, shared: frozenset, strea
     out = [None] * len(batch)
     for block in sub_windows(window, compute_block(grid)):
         ctx = ChunkContext(grid, block, shared)
+        sums = [stream.block(block) for stream in streams]    # composites accumulated as dates go by
         for i, (job, names, sinks) in enumerate(batch):
             products = chunk_products(job, grid, block, names, reuse=True, ctx=ctx)
             summary = _write_chunk(job, block, products, sinks)
             out[i] = summary if out[i] is None else {n: out[i][n].merge(summary[n]) for n in summary}
-            for stream in streams:
-                stream.add(job, block, products)
+            for s in sums:
+                s.add(job, products)
+        for s in sums:
+            s.flush()
     return out
 
 

@@ -1,7 +1,7 @@
 """Time stacks: one NetCDF or Zarr variable (time, y, x) holding many dates, read one window at a time.
 
 Opened with xarray (CF decoding: ``scale_factor``, ``add_offset``, ``_FillValue`` /
-``missing_value``, times) and rioxarray (the CRS from ``grid_mapping``; lon/lat coordinates mean
+``missing_value``, times) and pyproj (the CRS from a CF ``grid_mapping``; lon/lat coordinates mean
 WGS 84).  A :class:`StackSource` is a small picklable description of the step or steps one date
 needs; :meth:`StackSource.read` opens the file inside the task, cuts the slab of the source grid
 that covers the window (plus a margin for the resampling kernel), reads only those steps of it and
@@ -36,16 +36,29 @@ def is_stack_path(path: str) -> bool:
     return path.lower().rstrip("/").endswith((".nc", ".nc4", ".cdf", ".h5", ".hdf5", ".zarr"))
 
 
-def _engine(path: str) -> str | None:
-    return "zarr" if path.lower().rstrip("/").endswith(".zarr") else None
+def _engines(path: str) -> tuple:
+    """xarray engines to try: Zarr; for NetCDF h5netcdf first (NetCDF-4/HDF5, a dependency), then
+    whatever xarray finds for other formats (classic NetCDF-3).  The backends are given as classes:
+    naming them makes xarray load every installed package's backend plugin first."""
+    if path.lower().rstrip("/").endswith(".zarr"):
+        from xarray.backends.zarr import ZarrBackendEntrypoint
+        return (ZarrBackendEntrypoint,)
+    from xarray.backends.h5netcdf_ import H5netcdfBackendEntrypoint
+    return (H5netcdfBackendEntrypoint, None)
 
 
 def _open(path: str, *, mask_and_scale: bool, decode_times: bool):
     import xarray as xr
 
     try:
-        return xr.open_dataset(path, engine=_engine(path), mask_and_scale=mask_and_scale,
-                               decode_times=decode_times, cache=False)
+        for engine in _engines(path):
+            try:
+                return xr.open_dataset(path, engine=engine, mask_and_scale=mask_and_scale,
+                                       decode_times=decode_times, cache=False)
+            except (OSError, ValueError) as exc:
+                if engine is None or isinstance(exc, FileNotFoundError):
+                    raise
+        raise OSError(f"no engine can read {path}")
     except FileNotFoundError:
         raise InputError(f"{path}: file not found; check the path in the config") from None
     except Exception as exc:   # xarray raises many kinds for a file it cannot read
@@ -80,12 +93,12 @@ def _utc(value) -> dt.datetime:
     return value.replace(tzinfo=dt.timezone.utc) if value.tzinfo is None else value.astimezone(dt.timezone.utc)
 
 
-def _is_lonlat(da) -> bool:
-    names = {str(da.rio.x_dim).lower(), str(da.rio.y_dim).lower()}
+def _is_lonlat(ds, xdim: str, ydim: str) -> bool:
+    names = {str(xdim).lower(), str(ydim).lower()}
     if names & {"lon", "longitude"} and names & {"lat", "latitude"}:
         return True
-    for dim in (da.rio.x_dim, da.rio.y_dim):
-        attrs = da[dim].attrs
+    for dim in (xdim, ydim):
+        attrs = ds[dim].attrs
         if attrs.get("standard_name") in ("longitude", "latitude") or \
                 str(attrs.get("units", "")).startswith(("degrees_east", "degrees_north", "degree_E", "degree_N")):
             return True
@@ -95,8 +108,6 @@ def _is_lonlat(da) -> bool:
 @lru_cache(maxsize=256)
 def stack_info(path: str, variable: str) -> StackInfo:
     """The header of ``variable`` in the stack at ``path`` (cached per process)."""
-    import rioxarray  # noqa: F401  (registers the .rio accessor)
-
     ds = _open(path, mask_and_scale=False, decode_times=True)
     with ds:
         if variable not in ds.data_vars:
@@ -109,35 +120,55 @@ def stack_info(path: str, variable: str) -> StackInfo:
             raise InputError(f"{path}: variable {variable} has no time axis (dims {', '.join(da.dims)}); a time "
                              f"stack needs a CF time coordinate")
         tdim = "time" if "time" in da.dims else time_dims[0]
+        if len(da.dims) != 3 or da.dims[0] != tdim:
+            extra = [d for d in da.dims if d != tdim][:-2]
+            raise InputError(f"{path}: variable {variable} has dimensions {', '.join(da.dims)}; give a "
+                             f"(time, y, x) variable" + (f" (extra: {', '.join(extra)})" if extra else ""))
+        ydim, xdim = da.dims[1], da.dims[2]
         try:
-            da = da.rio.set_spatial_dims(*_xy_dims(da, tdim))
-            transform = da.rio.transform(recalc=True)
-        except Exception as exc:
-            raise InputError(f"{path}: variable {variable}: cannot find its x/y grid ({exc}); it needs 1-D x/y "
-                             f"or lon/lat coordinates") from None
-        crs = da.rio.crs
+            transform = _regular_transform(ds[xdim].values, ds[ydim].values)
+        except (KeyError, ValueError) as exc:
+            raise InputError(f"{path}: variable {variable}: cannot find its x/y grid ({exc}); it needs regular 1-D "
+                             f"x/y or lon/lat coordinates") from None
+        crs = _cf_crs(ds, da)
         if crs is None:
-            if not _is_lonlat(da):
+            if not _is_lonlat(ds, xdim, ydim):
                 raise InputError(f"{path}: variable {variable} has no grid_mapping and no lon/lat coordinates; "
                                  f"add a CF grid_mapping so its CRS is known")
             crs = CRS.from_epsg(4326)
-        extra = [d for d in da.dims if d not in (tdim, da.rio.y_dim, da.rio.x_dim)]
-        if extra:
-            raise InputError(f"{path}: variable {variable} has extra dimensions {', '.join(extra)}; give a "
-                             f"(time, y, x) variable")
         times = tuple(_utc(t) for t in ds[tdim].values)
         enc = {**da.attrs, **da.encoding}
         return StackInfo(path=path, variable=variable, times=times, units=str(da.attrs.get("units", "")),
-                         crs=CRS.from_user_input(crs), transform=transform,
-                         shape=(int(da.sizes[da.rio.y_dim]), int(da.sizes[da.rio.x_dim])),
+                         crs=crs, transform=transform, shape=(int(da.sizes[ydim]), int(da.sizes[xdim])),
                          packed="scale_factor" in enc or "add_offset" in enc)
 
 
-def _xy_dims(da, tdim: str) -> tuple[str, str]:
-    rest = [d for d in da.dims if d != tdim]
-    if len(rest) < 2:
-        raise ValueError(f"dims {da.dims}")
-    return rest[-1], rest[-2]   # CF order (..., y, x)
+def _regular_transform(x: np.ndarray, y: np.ndarray) -> Affine:
+    """The affine transform of pixel-centre coordinates on a regular grid (either axis may decrease)."""
+    x, y = np.asarray(x, float), np.asarray(y, float)
+    if x.ndim != 1 or y.ndim != 1 or x.size < 2 or y.size < 2:
+        raise ValueError("x and y must be 1-D with at least two values")
+    dx, dy = (x[-1] - x[0]) / (x.size - 1), (y[-1] - y[0]) / (y.size - 1)
+    if not (np.allclose(np.diff(x), dx, rtol=1e-4, atol=0) and np.allclose(np.diff(y), dy, rtol=1e-4, atol=0)):
+        raise ValueError("the coordinates are not evenly spaced")
+    return Affine(dx, 0.0, x[0] - dx / 2, 0.0, dy, y[0] - dy / 2)
+
+
+def _cf_crs(ds, da) -> CRS | None:
+    """The CRS of a CF grid_mapping (its crs_wkt / spatial_ref, or its CF parameters via pyproj)."""
+    name = da.attrs.get("grid_mapping") or da.encoding.get("grid_mapping")
+    if not name or str(name).split(":")[0] not in ds.variables:
+        return None
+    attrs = ds[str(name).split(":")[0]].attrs
+    for key in ("crs_wkt", "spatial_ref"):
+        if attrs.get(key):
+            return CRS.from_wkt(str(attrs[key]))
+    from pyproj import CRS as ProjCRS
+
+    try:
+        return CRS.from_wkt(ProjCRS.from_cf(dict(attrs)).to_wkt())
+    except Exception:
+        return None
 
 
 _local = threading.local()

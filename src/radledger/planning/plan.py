@@ -20,7 +20,6 @@ from ..io.gdalenv import gdal_env
 from ..io.paths import gdal_path
 from ..io.rasters import open_dataset
 from ..io.tables import read_emissivity_table
-from ..io.vectors import read_zones
 from ..kinds import TimeKind
 from ..model.params import DayParams, SceneParams
 from ..model.products import SCENE_DAY_PRODUCT
@@ -141,6 +140,7 @@ def make_plan(cfg: Config, *, inspect_inputs: bool = True, force: bool = False,
     plan.skipped = builder.skipped
 
     if cfg.zones is not None and inspect_inputs:
+        from ..io.vectors import read_zones   # GEOS and OGR load only for runs with zones
         try:
             read_zones(cfg.zones.path, cfg.zones.id, grid)
         except RadledgerError as exc:

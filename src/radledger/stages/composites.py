@@ -15,13 +15,18 @@ from ..outputs.composites import composite
 from ..planning.plan import Plan
 from ..planning.provenance import composite_tags, settings_hash
 from .products import composite_paths, net_radiation_files
+from .streams import CompositeStream, write_streamed
 
 __all__ = ["run_composite"]
 
 
-def run_composite(plan: Plan, comp: CompositeSpec, engine: Engine, *, overwrite: bool
-                  ) -> tuple[list[Path], list[Path]]:
-    """Write the statistics of ``comp`` that are not current; (written, skipped)."""
+def run_composite(plan: Plan, comp: CompositeSpec, engine: Engine, *, overwrite: bool,
+                  stream: CompositeStream | None = None) -> tuple[list[Path], list[Path]]:
+    """Write the statistics of ``comp`` that are not current; (written, skipped).
+
+    ``stream``: the running sums the chunk tasks accumulated for it while its dates were computed
+    (stages/streams.py); without one, the statistics are computed from the finished products.
+    """
     members = net_radiation_files(plan, comp.source, comp.start, comp.end)
     h = settings_hash(__version__, plan.grid.identity, repr(comp), plan.cfg.output.compression,
                       [(str(p), read_tags(p).get("settings_hash")) for _, p in members])
@@ -29,7 +34,11 @@ def run_composite(plan: Plan, comp: CompositeSpec, engine: Engine, *, overwrite:
     todo = {s: p for s, p in targets.items() if overwrite or not is_current(p, h)}
     skipped = [p for s, p in targets.items() if s not in todo]
     if not todo:
+        if stream is not None:
+            stream.acc.remove()
         return [], skipped
+    if stream is not None:
+        return _from_stream(plan, comp, engine, stream, todo, members, h), skipped
     if members:
         arrays = composite([str(p) for _, p in members], plan.grid, statistics=tuple(todo),
                            min_count=comp.min_count,
@@ -37,12 +46,9 @@ def run_composite(plan: Plan, comp: CompositeSpec, engine: Engine, *, overwrite:
     else:  # an empty window still gets products: NaN everywhere, count 0
         arrays = {s: da.full(plan.grid.shape, 0.0 if s == "count" else np.nan, chunks=plan.grid.chunks,
                              dtype=np.float32) for s in todo}
-    files, sources = [], []
-    for s, path in todo.items():
-        tags = composite_tags(plan.cfg, comp, s, [p for _, p in members], h)
-        files.append(ProductFile(final=path, grid=plan.grid, dtype="float32", tags=tags,
-                                 band_description=tags["long_name"], compression=plan.cfg.output.compression))
-        sources.append(arrays[s])
+    by_statistic = _files(plan, comp, todo, members, h)
+    files = list(by_statistic.values())
+    sources = [arrays[s] for s in by_statistic]
     try:
         for f in files:
             f.create(keep_open=not engine.distributed)
@@ -55,3 +61,28 @@ def run_composite(plan: Plan, comp: CompositeSpec, engine: Engine, *, overwrite:
             f.abort()
         raise
     return written, skipped
+
+
+def _files(plan: Plan, comp: CompositeSpec, todo: dict, members: list, h: str) -> dict:
+    out = {}
+    for s, path in todo.items():
+        tags = composite_tags(plan.cfg, comp, s, [p for _, p in members], h)
+        out[s] = ProductFile(final=path, grid=plan.grid, dtype="float32", tags=tags,
+                             band_description=tags["long_name"], compression=plan.cfg.output.compression)
+    return out
+
+
+def _from_stream(plan: Plan, comp: CompositeSpec, engine: Engine, stream: CompositeStream, todo: dict,
+                 members: list, h: str) -> list[Path]:
+    files = _files(plan, comp, todo, members, h)
+    try:
+        for f in files.values():
+            f.create(keep_open=not engine.distributed)
+        write_streamed(plan, stream, engine, files)
+        return [f.finish() for f in files.values()]
+    except BaseException:
+        for f in files.values():
+            f.abort()
+        raise
+    finally:
+        stream.acc.remove()
