@@ -16,6 +16,7 @@ from rasterio.windows import Window
 
 from .. import physics as ph
 from ..grid import TargetGrid
+from ..io.memo import ReadMemo
 from ..model.params import DaySolar
 
 __all__ = ["ChunkContext"]
@@ -26,7 +27,7 @@ class ChunkContext:
     grid: TargetGrid
     window: Window
     shared: frozenset = frozenset()          # sources every job of the batch reads: read once
-    warps: dict = field(default_factory=dict)
+    memo: ReadMemo = field(default_factory=ReadMemo)   # shared by every block of the task
     _memo: dict = field(default_factory=dict)
     _lonlat: tuple | None = None
     _lattice: object = None
@@ -36,16 +37,16 @@ class ChunkContext:
         """The decoded arrays of one source on the window (a shared source is read only once)."""
         if source in self.shared:
             if source not in self._memo:
-                self._memo[source] = source.read_layers(self.grid, self.window, self.warps)
+                self._memo[source] = source.read_layers(self.grid, self.window, self.memo)
             return {k: v.copy() for k, v in self._memo[source].items()}   # kernels may write in place
-        return source.read_layers(self.grid, self.window, self.warps)
+        return source.read_layers(self.grid, self.window, self.memo)
 
     def lonlat(self) -> tuple[np.ndarray, np.ndarray]:
         if self._lonlat is None:
             self._lonlat = self.grid.lonlat(self.window)
         return self._lonlat
 
-    def day_solar(self, day_of_year: int) -> DaySolar:
+    def day_solar(self, day_of_year: int, *, daylight: bool = False) -> DaySolar:
         """FAO-56 R_a (eq. 21) and day length N (eq. 34) of one day over the window.
 
         Both depend only on latitude, smoothly: they are evaluated at the lattice's points and
@@ -56,5 +57,6 @@ class ChunkContext:
             self._lattice_lat = self._lattice.lonlat()[1]
         lat = self._lattice_lat
         ra = ph.extraterrestrial_daily(lat, day_of_year)
-        n = ph.daylight_hours(ph.sunset_hour_angle(lat, ph.solar_declination(day_of_year)))
-        return DaySolar(self._lattice.spread(ra, np.float32), self._lattice.spread(n, np.float32))
+        n = ph.daylight_hours(ph.sunset_hour_angle(lat, ph.solar_declination(day_of_year))) if daylight else None
+        return DaySolar(self._lattice.spread(ra, np.float32),
+                        self._lattice.spread(n, np.float32) if daylight else None)

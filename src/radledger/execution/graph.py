@@ -14,7 +14,7 @@ cluster.  Building the graph computes nothing.
 from __future__ import annotations
 
 import warnings
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
@@ -31,6 +31,7 @@ from ..physics import CLEARNESS_MIN_SUN_ELEVATION
 from ..model.products import SCENE_DAY_PRODUCT, Product, product_info
 from ..planning.plan import Job, Plan
 from ..planning.provenance import job_product_tags
+from ..io.memo import ReadMemo
 from .context import ChunkContext
 from .engine import Engine
 
@@ -90,7 +91,8 @@ def chunk_products(job: Job, grid: TargetGrid, window, names: tuple[str, ...], *
             lonlat = ctx.lonlat() if p.scene_to_day != "none" else None
             out = scene_kernel(arrays, sun, lonlat, p, reuse=reuse)
         else:
-            out = day_kernel(arrays, ctx.day_solar(job.params.day_of_year), job.params)
+            p = job.params
+            out = day_kernel(arrays, ctx.day_solar(p.day_of_year, daylight=p.shortwave_daylight_mean), p)
     return {n: out[n] for n in names}
 
 
@@ -140,8 +142,13 @@ def _batch_task(batch: tuple, grid: TargetGrid, window, shared: frozenset, strea
     date; products are written (and streamed) before the next date reuses the kernel's buffers.
     """
     out = [None] * len(batch)
+    memo = ReadMemo(chunk=window)          # shared by the task's blocks: stack slabs, resampling geometry
+    for job, _, _ in batch:
+        for src in job.sources.values():
+            memo.want(src)
     for block in sub_windows(window, compute_block(grid)):
-        ctx = ChunkContext(grid, block, shared)
+        # the slabs serve every block of the chunk; each block's resampling geometry only its own dates
+        ctx = ChunkContext(grid, block, shared, replace(memo, warps={}))
         sums = [stream.block(block) for stream in streams]    # composites accumulated as dates go by
         for i, (job, names, sinks) in enumerate(batch):
             products = chunk_products(job, grid, block, names, reuse=True, ctx=ctx)

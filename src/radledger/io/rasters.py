@@ -25,6 +25,7 @@ from rasterio.windows import Window, from_bounds
 from ..errors import GridError, InputError
 from ..grid import TargetGrid
 from .gdalenv import gdal_env
+from .memo import ReadMemo
 from .paths import gdal_path
 from .resample import FAST_RESAMPLING, warp_for
 
@@ -56,19 +57,19 @@ class LayerSource:
     def gdal_path(self) -> str:
         return gdal_path(self.path)
 
-    def read_layers(self, grid: TargetGrid, window: Window, warps: dict | None = None) -> dict[str, np.ndarray]:
-        return {self.layer: self.read(grid, window, warps)}
+    def read_layers(self, grid: TargetGrid, window: Window, memo: ReadMemo | None = None) -> dict[str, np.ndarray]:
+        return {self.layer: self.read(grid, window, memo)}
 
-    def read(self, grid: TargetGrid, window: Window, warps: dict | None = None) -> np.ndarray:
+    def read(self, grid: TargetGrid, window: Window, memo: ReadMemo | None = None) -> np.ndarray:
         """The decoded float32 values of ``window`` of ``grid``; NaN = missing/off-footprint.
 
-        ``warps``: a per-task memo of resampling geometry (see io/resample.py), so a task reading
-        many dates of sources on one coarser grid computes where its pixels fall only once.
+        ``memo``: what the task keeps between dates (io/memo.py), so a task reading many dates
+        of sources on one coarser grid computes where its pixels fall only once.
         """
         with gdal_env():
             ds = open_dataset(self.gdal_path, self.path)
             try:
-                raw = self._read_raw(ds, grid, window, warps)
+                raw = self._read_raw(ds, grid, window, memo.warps if memo is not None else None)
             except RasterioIOError as exc:
                 raise read_failed(self.path, exc) from None
         return self._decode(raw)

@@ -69,7 +69,7 @@ class WindowWarp:
         if method == "nearest":
             return flat[plan["i00"]].reshape(self.shape)
         fx, fy = plan["fx"], plan["fy"]
-        a, b, c, d = (flat[plan[k]] for k in ("i00", "i01", "i10", "i11"))
+        a, b, c, d = (np.take(flat, plan[k]) for k in ("i00", "i01", "i10", "i11"))
         top = a + (b - a) * fx
         out = top + ((c + (d - c) * fx) - top) * fy
         redo = plan["edge"] if not np.isnan(slab).any() else np.isnan(out) | plan["edge"]
@@ -128,7 +128,8 @@ class WindowWarp:
 def warp_for(cache: dict | None, grid: TargetGrid, window: Window, src_crs, src_transform: Affine,
              src_shape: tuple[int, int]) -> WindowWarp:
     """The :class:`WindowWarp` of a source grid for ``window``, memoised in ``cache`` (per chunk task)."""
-    key = (str(src_crs), tuple(src_transform), tuple(src_shape))
+    key = (str(src_crs), tuple(src_transform), tuple(src_shape), int(window.row_off), int(window.col_off),
+           int(window.height), int(window.width))
     if cache is None:
         return WindowWarp(grid, window, src_crs, src_transform, src_shape)
     if key not in cache:

@@ -25,6 +25,7 @@ from rasterio.windows import Window
 
 from ..errors import InputError
 from ..grid import TargetGrid
+from .memo import ReadMemo
 from .resample import FAST_RESAMPLING, warp_for
 
 __all__ = ["StackInfo", "StackSource", "stack_info", "is_stack_path"]
@@ -66,7 +67,7 @@ def _open(path: str, *, mask_and_scale: bool, decode_times: bool):
                          f"{' '.join(str(exc).split())[:160]})") from None
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)   # one object per stack (stack_info is cached): identity is equality
 class StackInfo:
     """What a stack's header says: its times, units, CRS, grid and CF packing."""
     path: str
@@ -214,23 +215,25 @@ class StackSource:
     def raw(self) -> bool:
         return self.scale is not None or self.offset is not None or self.nodata is not None
 
-    def read_layers(self, grid: TargetGrid, window: Window, warps: dict | None = None) -> dict[str, np.ndarray]:
-        return {self.layer: self.read(grid, window, warps)}
+    def read_layers(self, grid: TargetGrid, window: Window, memo: ReadMemo | None = None) -> dict[str, np.ndarray]:
+        return {self.layer: self.read(grid, window, memo)}
 
-    def read(self, grid: TargetGrid, window: Window, warps: dict | None = None) -> np.ndarray:
+    def read(self, grid: TargetGrid, window: Window, memo: ReadMemo | None = None) -> np.ndarray:
         """The decoded float32 values of ``window`` of ``grid``; NaN = missing or off the stack.
 
-        ``warps``: a per-task memo of :class:`~radledger.io.resample.WindowWarp` (the geometry of
-        this stack's grid on the window, computed once for every date a task reads).
+        ``memo``: what the task keeps between dates (io/memo.py): the geometry of this stack's grid
+        on the window, and the slab of every step the task reads, fetched in one request.
         """
         h, w = int(window.height), int(window.width)
         if self.resampling in FAST_RESAMPLING:
-            warp = warp_for(warps, grid, window, self.info.crs, self.info.transform, self.info.shape)
+            warp = warp_for(memo.warps if memo is not None else None, grid, window, self.info.crs,
+                            self.info.transform, self.info.shape)
             if warp.upsampling:
                 r0, r1, c0, c1 = warp.bounds()
                 if r1 <= r0 or c1 <= c0:
                     return np.full((h, w), np.nan, dtype=np.float32)
-                return self._finish(warp.resample(self._slab(r0, r1, c0, c1), r0, c0, self.resampling))
+                slab = self._memo_slab(memo, grid, r0, r1, c0, c1)
+                return self._finish(warp.resample(slab, r0, c0, self.resampling))
         out = np.full((h, w), np.nan, dtype=np.float32)
         cut = self._slab_window(grid, window)
         if cut is None:
@@ -290,6 +293,45 @@ class StackSource:
         if r1 <= r0 or c1 <= c0:
             return None
         return (r0, r1), (c0, c1)
+
+    def _memo_slab(self, memo: ReadMemo | None, grid: TargetGrid, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
+        """This date's slab, cut from the task's prefetch of every step it wants (one read per stack)."""
+        key = (self.path, self.variable, self.raw)
+        if memo is None or memo.chunk is None or key not in memo.wanted:
+            return self._slab(r0, r1, c0, c1)
+        if key not in memo.slabs:
+            cut = self._slab_window(grid, memo.chunk)
+            if cut is None:
+                return self._slab(r0, r1, c0, c1)
+            (a0, a1), (b0, b1) = cut
+            steps = memo.wanted[key]
+            memo.slabs[key] = ((a0, a1, b0, b1), {s: i for i, s in enumerate(steps)},
+                               self._read_steps(steps, a0, a1, b0, b1))
+        (a0, a1, b0, b1), index, data = memo.slabs[key]
+        if not (a0 <= r0 and r1 <= a1 and b0 <= c0 and c1 <= b1) or any(s not in index for s in self.steps):
+            return self._slab(r0, r1, c0, c1)
+        total = None
+        for step, weight in zip(self.steps, self.weights):
+            a = data[index[step], r0 - a0:r1 - a0, c0 - b0:c1 - b0]
+            total = a * weight if total is None else total + a * weight
+        return total.astype(np.float32)
+
+    def _read_steps(self, steps, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
+        """Decoded float64 values of several steps of the slab, in one request."""
+        ds = _cached(self.path, self.raw)
+        da = ds[self.variable]
+        try:
+            a = np.asarray(da.isel({da.dims[0]: list(steps), da.dims[-2]: slice(r0, r1),
+                                    da.dims[-1]: slice(c0, c1)}).values, dtype=np.float64)
+        except Exception as exc:
+            raise InputError(f"{self.path}: reading {self.variable} steps {steps[0]}..{steps[-1]} failed "
+                             f"({exc.__class__.__name__}: {' '.join(str(exc).split())[:160]}); the file may "
+                             f"be truncated or corrupt") from None
+        if self.raw:
+            if self.nodata is not None:
+                a[a == self.nodata] = np.nan
+            a = a * (1.0 if self.scale is None else self.scale) + (self.offset or 0.0)
+        return a
 
     def _slab(self, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
         ds = _cached(self.path, self.raw)

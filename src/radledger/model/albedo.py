@@ -84,7 +84,7 @@ class AlbedoBetweenScenes:
     def paths(self) -> tuple[str, ...]:
         return tuple(getattr(s, "path", "") for _, s in self.scenes)
 
-    def read_layers(self, grid: TargetGrid, window: Window, warps: dict | None = None) -> dict[str, np.ndarray]:
+    def read_layers(self, grid: TargetGrid, window: Window, memo=None) -> dict[str, np.ndarray]:
         noon = dt.datetime.combine(self.day, dt.time(12), tzinfo=dt.timezone.utc)
         offsets = [((t - noon).total_seconds() / 86400.0, s) for t, s in self.scenes]
         before = sorted(((o, s) for o, s in offsets if o <= 0), key=lambda x: -x[0])
@@ -93,6 +93,6 @@ class AlbedoBetweenScenes:
         if not before and not after:
             return {"albedo": np.full(shape, REFERENCE_ALBEDO, np.float32),
                     "albedo_fill": np.full(shape, FILL_DEFAULT, np.uint8)}
-        albedo, fill = albedo_between([(o, s.read(grid, window, warps)) for o, s in before],
-                                      [(o, s.read(grid, window, warps)) for o, s in after])
+        albedo, fill = albedo_between([(o, s.read(grid, window, memo)) for o, s in before],
+                                      [(o, s.read(grid, window, memo)) for o, s in after])
         return {"albedo": albedo, "albedo_fill": fill}

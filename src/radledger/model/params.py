@@ -16,7 +16,7 @@ __all__ = ["SceneParams", "DayParams", "DaySolar"]
 class DaySolar:
     """The sun's part of one day over a chunk (FAO-56): what depends only on latitude and date."""
     extraterrestrial: np.ndarray    # R_a, eq. 21 [MJ m-2 day-1]
-    daylight_hours: np.ndarray      # N, eq. 34 [hour]
+    daylight_hours: np.ndarray | None = None   # N, eq. 34 [hour] (when a daylight mean needs it)
 
 
 @dataclass(frozen=True)
