@@ -1,7 +1,8 @@
 """``radledger run``: the stages a config asks for, in dependency order.
 
-scenes and days (each product written as soon as it is complete) ->
-composites over the finished day/scene products -> zone tables -> NetCDF
+the static terrain layers (methods.terrain) -> scenes and days (each product
+written as soon as it is complete) -> composites over the finished day/scene
+products -> zone tables -> NetCDF
 stacks -> Zarr stores -> STAC catalog -> quicklooks.  A rerun skips products
 whose inputs and settings are unchanged (their ``settings_hash`` tag) and
 finishes the rest.
@@ -25,6 +26,7 @@ from .stages.jobs import run_jobs
 from .stages.netcdf import run_netcdf
 from .stages.quicklooks import run_quicklooks
 from .stages.stac import run_stac
+from .stages.terrain import run_terrain
 from .stages.zarr import run_zarr
 from .stages.zones import run_zones
 
@@ -70,6 +72,11 @@ def run_config(cfg: Config, *, overwrite: bool = False, scheduler: str | None = 
         events.started(plan, engine)
         for label, why in plan.skipped:
             events.warn(f"{label} skipped (on_missing: skip): {why}")
+        if cfg.methods.terrain != "none":
+            w, s = run_terrain(plan, engine, overwrite=overwrite)
+            report.written += w
+            report.skipped += s
+            events.stage_done("terrain", len(w), len(s))
         report.results = run_jobs(plan, engine, overwrite=overwrite)
         for r in report.results:
             report.written += r.written

@@ -26,6 +26,8 @@ class SceneParams:
     land_cover_path: str = ""                    # for the error message
     emissivity_table: str = ""
     scene_to_day: str = "none"                   # none | sinusoidal | shortwave-ratio
+    terrain: str = "none"                        # none | slope | shading (model/terrain.py)
+    terrain_layers: str = ""                     # identity (settings hash) of the static terrain layers
 
     @property
     def day_of_year(self) -> int:
@@ -43,6 +45,8 @@ class DayParams:
     products: tuple[str, ...]
     needs: Needs
     shortwave_daylight_mean: bool = False   # shortwave given as a mean over daylight hours [W m-2]
+    terrain: str = "none"                   # none | slope | shading (model/terrain.py)
+    terrain_layers: str = ""                # identity (settings hash) of the static terrain layers
 
     @property
     def day_of_year(self) -> int:
