@@ -98,7 +98,7 @@ def _sun_needed(p, grid: TargetGrid, window) -> bool:
     needs = p.needs
     if not needs.sun:
         return False
-    if needs.clear_sky or p.scene_to_day != "none" or needs.terrain != "none":
+    if needs.clear_sky or p.scene_to_day != "none":
         return True
     return not sun_up_everywhere(grid, window, p.time, min_elevation=CLEARNESS_MIN_SUN_ELEVATION + 1.0)
 

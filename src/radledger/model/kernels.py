@@ -17,7 +17,7 @@ from .params import DayParams, SceneParams
 from .products import DAY_QUALITY_BITS, SCENE_DAY_PRODUCT, SCENE_QUALITY_BITS
 from .sun import SunGeometry
 from .surface import chunk_emissivity
-from .terrain import daily_slope_ratio, scene_incident_shortwave, terrain_inputs
+from .terrain import daily_slope_ratio, scene_incident_shortwave, sun_from_lattice, terrain_inputs
 
 __all__ = ["scene_kernel", "day_kernel", "humidity_to_kpa", "clear_sky_shortwave"]
 
@@ -142,6 +142,8 @@ def scene_kernel(arrays: dict[str, np.ndarray], sun: SunGeometry | None, lonlat,
             pressure = ph.atmospheric_pressure(z)
             terms = ph.clear_sky_beam_diffuse_indices(sun.cos_zenith, pressure,
                                                       ph.precipitable_water(ea, pressure))
+        if sun is None:   # the terrain's source brings the sun on its lattice
+            sun = sun_from_lattice(arrays["sun_lattice"], shape)
         rs_in = scene_incident_shortwave(arrays, sun, rs, albedo, layers, p.terrain, clear_sky_terms=terms)
 
     eps_clear = ph.sky_emissivity(ta, ea, model=p.sky_emissivity)

@@ -17,10 +17,10 @@ A day (FAO-56) needs shortwave, Tmax, Tmin, one humidity layer and the
 elevation (eq. 37); albedo is optional (0.23, flagged).
 
 ``methods.terrain`` (slope or shading) needs the DEM (the static terrain
-layers are computed from it once, before any scene or day) and, for scenes,
-the sun per pixel; its scenes take the NumPy kernel (the fused loop knows
-level ground only).  A snow layer (``snow_cover``, else ``ndsi``) is read
-where given; scenes with snow take the NumPy kernel too.
+layers are computed from it once, before any scene or day; their source
+brings the sun over each scene's chunk).  The fused loop covers terrain
+scenes too (model/terrain_fast.py).  A snow layer (``snow_cover``, else
+``ndsi``) is read where given; scenes with snow take the NumPy kernel.
 """
 
 from __future__ import annotations
@@ -35,7 +35,7 @@ __all__ = ["Needs", "scene_needs", "day_needs", "FUSED_PRODUCTS", "humidity_laye
            "terrain_reason"]
 
 #: products the fused loop computes (model/fused.py)
-FUSED_PRODUCTS = ("net_radiation", "net_shortwave", "net_longwave", "quality")
+FUSED_PRODUCTS = ("net_radiation", "net_shortwave", "net_longwave", "quality", "incident_shortwave")
 
 
 @dataclass(frozen=True)
@@ -92,7 +92,8 @@ def scene_needs(given, *, products, sky_emissivity: str, clouds: str, scene_to_d
     if terrain_reason(terrain):
         reasons.append(terrain_reason(terrain))
     products = tuple(products) + ((SCENE_DAY_PRODUCT,) if scene_to_day != "none" else ())
-    sun = clear_sky or "quality" in products or scene_to_day != "none" or terrain != "none"
+    # (terrain: the static layers' source brings the sun over each chunk itself, model/terrain.py)
+    sun = clear_sky or "quality" in products or scene_to_day != "none"
     layers = ["albedo", "surface_temperature", "air_temperature"]
     if humidity:
         layers.append(humidity)
@@ -108,7 +109,7 @@ def scene_needs(given, *, products, sky_emissivity: str, clouds: str, scene_to_d
     if snow:
         layers.append(snow)
     fused = (sky_emissivity == "brutsaert" and clouds == "none" and shortwave and humidity == "vapour_pressure"
-             and set(products) <= set(FUSED_PRODUCTS) and terrain == "none" and not snow)
+             and set(products) <= set(FUSED_PRODUCTS) and not snow)
     return Needs(TimeKind.SCENES, tuple(layers), sun=sun, clear_sky=clear_sky, fused=fused,
                  why_elevation="; ".join(reasons), terrain=terrain)
 

@@ -23,7 +23,8 @@ longwave it reflects is neglected.
 
 Days: the day's shortwave on the slope is the given horizontal daily total times the ratio of the
 clear-sky shortwave on the slope to that on flat ground, both summed over the day in 5-minute steps
-from the App. D beam and diffuse terms (:func:`radledger.physics.clear_sky_slope_ratio_daily`).
+from the App. D beam and diffuse terms (:func:`radledger.physics.clear_sky_slope_ratio_daily`,
+evaluated for many pixels at once by :mod:`radledger.model.terrain_daily`).
 Pixels share the sun's path when their latitudes round to the same :data:`LATITUDE_STEP`
 (0.05 deg): the ratio then moves by at most 0.12 % (0.2 % at 60 deg N in December), measured for
 30-60 deg slopes facing north, east and south, latitudes 0-60 deg, at the solstices and equinox.
@@ -33,6 +34,7 @@ from __future__ import annotations
 
 import datetime as dt
 import hashlib
+import math
 import os
 from dataclasses import dataclass
 
@@ -42,11 +44,12 @@ from rasterio.windows import Window
 from .. import physics as ph
 from ..grid import TargetGrid
 from ..io.rasters import LayerSource
-from .sun import SunGeometry
+from .sun import LATTICE_STEP, SunGeometry, _bilinear, _lattice, _lattice_lonlat
+from .terrain_daily import clear_sky_slope_ratio_fast
 from .terrain_layers import HORIZON_AZIMUTHS, horizon_name
 
 __all__ = ["TerrainLayers", "TerrainSource", "LATITUDE_STEP", "TERRAIN_LAYER_NAMES", "terrain_inputs",
-           "scene_incident_shortwave", "daily_slope_ratio", "horizon_toward"]
+           "scene_incident_shortwave", "daily_slope_ratio", "horizon_toward", "sun_lattice", "sun_from_lattice"]
 
 #: latitude step [deg] within which day pixels share the sun's path (see the module's docstring)
 LATITUDE_STEP = 0.05
@@ -82,11 +85,13 @@ class TerrainLayers:
 class TerrainSource:
     """A job's view of the static terrain layers (read like any input, one chunk window at a time).
 
-    A scene (``time`` given) reads only the horizons around the sun's azimuth over the chunk (two
-    files where it lies within one 10-deg interval); a day reads all of them.
+    ``when``: a scene's time - it also gets the sun over the chunk (``sun_lattice``, see
+    :func:`sun_lattice`) and reads only the horizons around the sun's azimuth there (two files
+    where it lies within one 10-deg interval); or a day's date - it reads the horizons of the
+    azimuths its sun sweeps past over the chunk.
     """
     terrain: TerrainLayers
-    time: dt.datetime | None = None
+    when: dt.date | None = None
     layer: str = "terrain"
     units: str = ""
 
@@ -99,36 +104,94 @@ class TerrainSource:
 
     def read_layers(self, grid: TargetGrid, window: Window) -> dict[str, np.ndarray]:
         out = {n: self._file(n).read(grid, window) for n in TERRAIN_LAYER_NAMES}
+        wanted = HORIZON_AZIMUTHS
+        if isinstance(self.when, dt.datetime):
+            out["sun_lattice"], azimuths = sun_lattice(grid, window, self.when)
+            wanted = _azimuths_near(azimuths)
+        elif self.when is not None:
+            wanted = _azimuths_of_day(grid.lonlat_corners(window)[1], self.when)
         if self.terrain.method == "shading":
-            wanted = HORIZON_AZIMUTHS if self.time is None else _azimuths_near_sun(grid, window, self.time)
             out.update({horizon_name(a): self._file(horizon_name(a)).read(grid, window) for a in wanted})
         return out
 
 
-def _azimuths_near_sun(grid: TargetGrid, window: Window, time: dt.datetime) -> tuple[float, ...]:
-    """The stored azimuths that bracket the sun's azimuth anywhere over ``window`` (all near zenith).
+def sun_lattice(grid: TargetGrid, window: Window, time: dt.datetime) -> tuple[np.ndarray, np.ndarray]:
+    """The sun over ``window`` on the lattice of :mod:`radledger.model.sun` (SPA every 16 pixels).
 
-    The sun is placed at 3 x 3 points of the chunk; its azimuth varies smoothly between them unless
-    it stands near the zenith (above 80 deg, or spread over more than 90 deg): then every azimuth.
+    Returns ``(lattice, azimuths)``.  ``lattice`` planes: 0-2 the unit vector toward the sun (east,
+    north, up), 3 the extraterrestrial irradiance normal to the beam [W m-2], 4 the sun's azimuth
+    [deg] unwrapped across the chunk (so it interpolates linearly; meaningless only with the sun
+    near the zenith, where no horizon shades), 5 its elevation [deg].  ``azimuths``: the sun's
+    azimuth [deg] at the points where it is up.
     """
-    t = grid.window_transform(window)
-    cols = np.array([0.5, window.width / 2, window.width - 0.5])
-    rows = np.array([0.5, window.height / 2, window.height - 0.5])
-    x, y = np.meshgrid(t.c + t.a * cols, t.f + t.e * rows)
-    lon, lat = (x, y) if grid.crs.is_geographic else grid.to_lonlat(x, y)
-    zenith, azimuth = ph.sun_position(np.asarray(lat), np.asarray(lon), time)
-    if np.all(np.asarray(zenith) >= 90.0):
+    h, w = int(window.height), int(window.width)
+    rows, cols = _lattice(h, w, LATTICE_STEP)
+    lon, lat = _lattice_lonlat(grid, window, rows, cols)
+    zenith, azimuth = (np.asarray(v, dtype=np.float64) for v in ph.sun_position(lat, lon, time))
+    z, a = np.radians(zenith), np.radians(azimuth)
+    normal = np.full(z.shape, ph.SOLAR_CONSTANT_W / ph.sun_distance(time) ** 2)
+    first = azimuth.flat[0]
+    unwrapped = first + np.mod(azimuth - first + 180.0, 360.0) - 180.0
+    lattice = np.stack([np.sin(z) * np.sin(a), np.sin(z) * np.cos(a), np.cos(z), normal, unwrapped,
+                        90.0 - zenith])
+    return lattice, azimuth[zenith < 90.0]
+
+
+def sun_from_lattice(lattice: np.ndarray, shape: tuple[int, int]) -> SunGeometry:
+    """The sun per pixel from :func:`sun_lattice` (bilinear, as :func:`radledger.model.sun.sun_geometry`)."""
+    h, w = shape
+    rows, cols = _lattice(h, w, LATTICE_STEP)
+    up, azimuth = (_bilinear(lattice[k], rows, cols, h, w) for k in (2, 4))
+    return SunGeometry(cos_zenith=up, azimuth=np.mod(azimuth, 360.0),
+                       extraterrestrial=lattice[3, 0, 0] * np.maximum(up, 0.0))
+
+
+def _azimuths_near(azimuths: np.ndarray) -> tuple[float, ...]:
+    """The stored azimuths that bracket every one of the sun's ``azimuths`` over a chunk [deg].
+
+    The sun's azimuth varies smoothly between the lattice points (1 deg of margin) unless it
+    stands near the zenith: spread over more than 90 deg, every azimuth.  None if it is down.
+    """
+    if azimuths.size == 0:
         return ()                           # night over the whole chunk: no beam to shade
-    az = np.sort(np.mod(np.asarray(azimuth, dtype=float).ravel(), 360.0))
+    az = np.sort(np.mod(azimuths.ravel(), 360.0))
     gaps = np.diff(np.append(az, az[0] + 360.0))
     widest = int(np.argmax(gaps))
-    start = az[(widest + 1) % az.size] - 1.0          # the arc covering every azimuth, +-1 deg
     span = 360.0 - gaps[widest] + 2.0
-    if np.min(zenith) < 10.0 or span > 90.0:
-        return HORIZON_AZIMUTHS
+    return HORIZON_AZIMUTHS if span > 90.0 else _bracketing(az[(widest + 1) % az.size] - 1.0, span)
+
+
+def _bracketing(start: float, span: float) -> tuple[float, ...]:
+    """The stored azimuths around every direction from ``start`` clockwise over ``span`` [deg]."""
     first = int(np.floor(start / _STEP))
     last = int(np.floor((start + span) / _STEP)) + 1
-    return tuple(HORIZON_AZIMUTHS[k % len(HORIZON_AZIMUTHS)] for k in range(first, last + 1))
+    n = len(HORIZON_AZIMUTHS)
+    return tuple(HORIZON_AZIMUTHS[k % n] for k in range(first, min(last, first + n - 1) + 1))
+
+
+def _azimuths_of_day(latitudes: np.ndarray, day: dt.date) -> tuple[float, ...]:
+    """The stored azimuths a day's sun passes over latitudes ``latitudes`` [deg] (rise to set).
+
+    Sunrise is at azimuth arccos(sin(decl) / cos(lat)) from north (the spherical triangle with the
+    sun on the horizon); the sun crosses the south between rise and set where it culminates south
+    of the zenith (lat > decl), the north otherwise.  Where |lat| < |decl| its azimuth swings past
+    the rise azimuth before turning (its diurnal circle leaves zenith and nadir on one side), and
+    with the sun never setting it goes round: every azimuth (2 deg of margin); with the sun never
+    rising, none.
+    """
+    decl = math.degrees(float(ph.solar_declination(day.timetuple().tm_yday)))
+    lat = np.asarray(latitudes, dtype=np.float64).ravel()
+    if np.any(np.abs(lat) < abs(decl) + 2.0) or (np.any(lat > decl) and np.any(lat < decl)):
+        return HORIZON_AZIMUTHS
+    ratio = math.sin(math.radians(decl)) / np.cos(np.radians(lat))
+    if np.all(np.abs(ratio) >= 1.0) and np.all(lat * decl < 0):
+        return ()                           # polar night over the whole chunk
+    if np.any(np.abs(ratio) >= 1.0):
+        return HORIZON_AZIMUTHS             # polar day somewhere: the sun goes round
+    rise = float(np.min(np.degrees(np.arccos(ratio))) if lat[0] > decl else np.max(np.degrees(np.arccos(ratio))))
+    if lat[0] > decl:                       # rise -> south -> set
+        return _bracketing(rise - 2.0, 360.0 - 2.0 * rise + 4.0)
+    return _bracketing(-rise - 2.0, 2.0 * rise + 4.0)     # set side -> north -> rise side
 
 
 def horizon_toward(arrays: dict[str, np.ndarray], azimuth: np.ndarray) -> np.ndarray:
@@ -191,20 +254,34 @@ def daily_slope_ratio(arrays: dict[str, np.ndarray], terrain_layers, latitude: n
     """Ratio of a day's clear-sky shortwave on each pixel's slope to that on flat ground [1].
 
     ``pressure`` [kPa] and ``water`` (precipitable water) [mm] per pixel; NaN where an input is.
+    Pixels are grouped by latitude (:data:`LATITUDE_STEP`); the horizons present in ``arrays``
+    (those the day's sun sweeps past) are used.
     """
     slope, aspect, svf = terrain_layers
     shape = slope.shape
-    pressure, water, albedo = (np.broadcast_to(np.asarray(a, dtype=np.float64), shape)
-                               for a in (pressure, water, albedo))
-    horizons = None
+    pixels = [np.broadcast_to(np.asarray(a, dtype=np.float64), shape).ravel()
+              for a in (slope, aspect, pressure, water, svf, albedo)]
+    band = np.round(np.asarray(latitude) / LATITUDE_STEP).astype(np.int64).ravel()
+    order = np.argsort(band, kind="stable")
+    band = band[order]
+    pixels = [a[order] for a in pixels]
+    horizons = slots = None
     if method == "shading":
-        horizons = np.stack([arrays[horizon_name(a)] for a in HORIZON_AZIMUTHS])
-    ok = np.isfinite(slope) & np.isfinite(svf) & np.isfinite(pressure) & np.isfinite(water) & np.isfinite(albedo)
-    ratio = np.full(shape, np.nan)
-    band = np.round(np.asarray(latitude) / LATITUDE_STEP).astype(np.int64)
-    for b in np.unique(band[ok]):
-        m = ok & (band == b)
-        ratio[m] = ph.clear_sky_slope_ratio_daily(
-            b * LATITUDE_STEP, day_of_year, slope[m], aspect[m], pressure[m], water[m], svf[m], albedo[m],
-            None if horizons is None else horizons[:, m], None if horizons is None else HORIZON_AZIMUTHS)
-    return ratio
+        slots = np.full(len(HORIZON_AZIMUTHS), -1, np.int64)
+        present = [k for k, a in enumerate(HORIZON_AZIMUTHS) if horizon_name(a) in arrays]
+        slots[present] = np.arange(len(present))
+        if present:
+            stacked = np.stack([arrays[horizon_name(HORIZON_AZIMUTHS[k])] for k in present], axis=-1)
+            horizons = stacked.reshape(-1, len(present))[order]
+        else:
+            horizons = np.zeros((band.size, 1), np.float32)
+    ratio = np.empty(band.size)
+    edges = np.flatnonzero(np.diff(band)) + 1
+    for start, end in zip(np.r_[0, edges], np.r_[edges, band.size]):
+        part = slice(start, end)
+        ratio[part] = clear_sky_slope_ratio_fast(
+            band[start] * LATITUDE_STEP, day_of_year, *(a[part] for a in pixels),
+            None if horizons is None else horizons[part], slots)
+    out = np.empty(band.size)
+    out[order] = ratio
+    return out.reshape(shape)

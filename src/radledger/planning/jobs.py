@@ -171,7 +171,7 @@ class JobBuilder:
                                shortwave_daylight_mean=srcs["shortwave_down"].units == "W m-2 daylight",
                                terrain=cfg.methods.terrain, terrain_layers=self._terrain_identity())
             h = settings_hash(common, sources_fingerprint(srcs), repr(params))
-            srcs = self._with_terrain(srcs, None)
+            srcs = self._with_terrain(srcs, day.date)
             outputs = {p: out / "days" / f"{p}_{day.stamp}.tif" for p in want}
             notes = () if "albedo" in srcs else (DEFAULT_ALBEDO_NOTE,)
             jobs.append(job_class(TimeKind.DAYS, day.stamp, day.date, srcs, params, outputs, h, notes=notes,

@@ -20,7 +20,8 @@ from ..grid import TargetGrid
 from ..io.cog import ProductFile, is_current
 from ..model.products import terrain_product
 from ..model.terrain import TerrainLayers
-from ..model.terrain_layers import chunk_terrain, pixel_metres, read_dem_with_halo, terrain_halo
+from ..model.terrain_layers import (chunk_terrain, grid_north_offset, pixel_metres, read_dem_with_halo,
+                                    terrain_halo)
 from ..planning.plan import Plan
 from ..planning.provenance import terrain_tags
 
@@ -53,7 +54,7 @@ def _terrain_task(terrain: TerrainLayers, grid: TargetGrid, window, halo: int, s
     z, filled = read_dem_with_halo(terrain.dem, grid, window, halo)
     dx, dy = pixel_metres(grid, window)
     with np.errstate(invalid="ignore", divide="ignore"):
-        layers = chunk_terrain(z, filled, halo, dx, dy, terrain.method)
+        layers = chunk_terrain(z, filled, halo, dx, dy, terrain.method, grid_north_offset(grid, window))
     r0, c0 = int(window.row_off), int(window.col_off)
     h, w = int(window.height), int(window.width)
     for n, sink in sinks.items():
