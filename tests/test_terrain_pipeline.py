@@ -308,3 +308,26 @@ def test_terrain_on_a_dask_cluster_equals_local_threads(tmp_path):
     for path in local:
         other = tmp_path / "cluster" / "out" / path.relative_to(tmp_path / "local" / "out")
         np.testing.assert_array_equal(read(path), read(other))
+
+
+def test_terrain_beyond_the_grid_casts_its_shadow_into_it(tmp_path):
+    # the wall's DEM reaches 16 rows further south than the grid: its shadow still falls on the grid
+    dem = np.zeros((112, 48))
+    dem[WALL_ROW:] = WALL_H
+    cfg = terrain_config(tmp_path, dem, res=WALL_RES, scenes=[(WALL_TIME, WALL_GHI)], terrain="shading")
+    import yaml
+    raw = yaml.safe_load(cfg.read_text())
+    top = 4983000.0
+    raw["grid"] = {"crs": CRS, "resolution": WALL_RES, "chunk": 16,
+                   "bounds": [500000.0, top - WALL_ROW * WALL_RES, 500000.0 + 48 * WALL_RES, top]}
+    cfg.write_text(yaml.safe_dump(raw))
+    run_config(load_config(cfg))
+    got = read(tmp_path / "out" / "scenes" / f"incident_shortwave_{pd.Timestamp(WALL_TIME):%Y%m%dT%H%M}.tif")
+    assert got.shape == (WALL_ROW, 48)
+    lon, lat = pixel_lonlat(WALL_ROW, 24, WALL_RES)
+    zenith, azimuth = _sun(WALL_TIME, lat, lon)
+    length = WALL_H * math.cos(math.radians(azimuth - 180.0)) / math.tan(math.radians(90.0 - zenith))
+    distance = (WALL_ROW - np.arange(WALL_ROW)) * WALL_RES
+    shaded = got[:, 24] < 0.5 * got[0, 24]
+    # geometry as behind the wall above: the edge within 2 pixels of H cos(delta) / tan(e)
+    assert abs(distance[shaded].max() - length) <= 2 * WALL_RES

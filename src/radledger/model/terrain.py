@@ -265,23 +265,22 @@ def daily_slope_ratio(arrays: dict[str, np.ndarray], terrain_layers, latitude: n
     order = np.argsort(band, kind="stable")
     band = band[order]
     pixels = [a[order] for a in pixels]
-    horizons = slots = None
+    slots = present = None
     if method == "shading":
         slots = np.full(len(HORIZON_AZIMUTHS), -1, np.int64)
-        present = [k for k, a in enumerate(HORIZON_AZIMUTHS) if horizon_name(a) in arrays]
-        slots[present] = np.arange(len(present))
-        if present:
-            stacked = np.stack([arrays[horizon_name(HORIZON_AZIMUTHS[k])] for k in present], axis=-1)
-            horizons = stacked.reshape(-1, len(present))[order]
-        else:
-            horizons = np.zeros((band.size, 1), np.float32)
+        present = [arrays[horizon_name(a)].ravel() for a in HORIZON_AZIMUTHS if horizon_name(a) in arrays]
+        slots[[k for k, a in enumerate(HORIZON_AZIMUTHS) if horizon_name(a) in arrays]] = np.arange(len(present))
     ratio = np.empty(band.size)
     edges = np.flatnonzero(np.diff(band)) + 1
     for start, end in zip(np.r_[0, edges], np.r_[edges, band.size]):
         part = slice(start, end)
+        horizons = None
+        if present is not None:   # (pixels, azimuths) of this band only: memory stays a band's
+            take = order[part]
+            horizons = (np.stack([h[take] for h in present], axis=1) if present
+                        else np.zeros((end - start, 1), np.float32))
         ratio[part] = clear_sky_slope_ratio_fast(
-            band[start] * LATITUDE_STEP, day_of_year, *(a[part] for a in pixels),
-            None if horizons is None else horizons[part], slots)
+            band[start] * LATITUDE_STEP, day_of_year, *(a[part] for a in pixels), horizons, slots)
     out = np.empty(band.size)
     out[order] = ratio
     return out.reshape(shape)

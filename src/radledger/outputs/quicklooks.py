@@ -340,9 +340,9 @@ def write_side_by_side(left: np.ndarray, right: np.ndarray, png_path: str | os.P
     hi = hi if hi > lo else lo + 1.0
     diff = right - left
     spread = float(np.percentile(np.abs(diff.compressed()), PERCENTILES[1])) if diff.count() else 1.0
-    fig = Figure(figsize=(15.0, 4.6), dpi=DPI)
+    fig = Figure(figsize=(15.0, 4.3), dpi=DPI)
     FigureCanvasAgg(fig)
-    fig.subplots_adjust(left=0.05, right=0.98, bottom=0.12, top=0.86, wspace=0.28)
+    fig.subplots_adjust(left=0.05, right=0.98, bottom=0.1, top=0.9, wspace=0.28)
     panels = [(left, titles[0], colors.Normalize(lo, hi), SEQUENTIAL_CMAP, f"{label} [{units}]"),
               (right, titles[1], colors.Normalize(lo, hi), SEQUENTIAL_CMAP, f"{label} [{units}]"),
               (diff, "difference (right - left)", colors.TwoSlopeNorm(0.0, -max(spread, 1e-6), max(spread, 1e-6)),
@@ -356,7 +356,7 @@ def write_side_by_side(left: np.ndarray, right: np.ndarray, png_path: str | os.P
             _draw_zones(ax, zones, crs, scale, extent)
         _frame(ax, extent, aspect, (bounds[1], bounds[3]), xlabel, ylabel)
         ax.set_title(textwrap.fill(sub, 45), fontsize=9)
-    fig.suptitle(textwrap.fill(title, 120), fontsize=11)
+    fig.suptitle(textwrap.fill(title, 120), fontsize=11, y=0.985)
     fig.text(0.01, 0.01, "colour limits: 2nd-98th percentile of both maps (difference: 98th percentile of its size); "
              "grey = no value", fontsize=7, color="0.35")
     return _save(fig, Path(png_path))

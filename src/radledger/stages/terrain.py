@@ -33,20 +33,34 @@ def plan_terrain(plan: Plan) -> TerrainLayers | None:
     return next((j.sources["terrain"].terrain for j in plan.jobs if "terrain" in j.sources), None)
 
 
-def _relief_task(dem, grid: TargetGrid, window) -> tuple[float, float]:
-    z = dem.read(grid, window)
-    if not np.isfinite(z).any():
+def _relief_task(dem, grid: TargetGrid, window, halo: int) -> tuple[float, float]:
+    """Lowest elevation of the chunk, highest within its halo [m]."""
+    z, _ = read_dem_with_halo(dem, grid, window, halo)
+    inner = z[halo:z.shape[0] - halo, halo:z.shape[1] - halo] if halo else z
+    if not (np.isfinite(inner).any() and np.isfinite(z).any()):
         return np.inf, -np.inf
-    return float(np.nanmin(z)), float(np.nanmax(z))
+    return float(np.nanmin(inner)), float(np.nanmax(z))
 
 
-def _relief(dem, grid: TargetGrid, engine: Engine) -> float:
-    """Elevation range of the DEM over the grid [m] (one cheap pass, a task per chunk)."""
-    name = "radledger-relief-" + tokenize(dem.path, grid.identity, grid.chunk)
-    dsk = {(name, k): (_relief_task, dem, grid, win) for k, win in enumerate(grid.windows())}
-    parts = engine.get(dsk, list(dsk), label="terrain relief")
-    lo, hi = min(p[0] for p in parts), max(p[1] for p in parts)
-    return max(hi - lo, 0.0) if np.isfinite(lo) else 0.0
+def _relief(dem, grid: TargetGrid, engine: Engine) -> tuple[float, int]:
+    """Relief [m] that shades the grid, and the halo [pixel] it asks for.
+
+    The highest terrain that can shade a pixel may lie beyond the grid (where the DEM reaches
+    further): the relief is the highest elevation within the halo less the lowest on the grid,
+    and the halo follows from the relief; both grow until they agree (a few cheap passes).
+    """
+    halo, relief = 0, 0.0
+    for _ in range(4):
+        name = "radledger-relief-" + tokenize(dem.path, grid.identity, grid.chunk, halo)
+        dsk = {(name, k): (_relief_task, dem, grid, win, halo) for k, win in enumerate(grid.windows())}
+        parts = engine.get(dsk, list(dsk), label="terrain relief")
+        lo, hi = min(p[0] for p in parts), max(p[1] for p in parts)
+        relief = max(hi - lo, 0.0) if np.isfinite(lo) else 0.0
+        wanted = terrain_halo(relief, grid, "shading")
+        if wanted <= halo:
+            break
+        halo = wanted
+    return relief, halo
 
 
 def _terrain_task(terrain: TerrainLayers, grid: TargetGrid, window, halo: int, sinks: dict) -> None:
@@ -73,8 +87,7 @@ def run_terrain(plan: Plan, engine: Engine, *, overwrite: bool = False) -> tuple
     if not todo:
         return [], kept
     grid = plan.grid
-    relief = _relief(terrain.dem, grid, engine) if terrain.method == "shading" else 0.0
-    halo = terrain_halo(relief, grid, terrain.method)
+    relief, halo = _relief(terrain.dem, grid, engine) if terrain.method == "shading" else (0.0, 1)
     files = {n: ProductFile(final=paths[n], grid=grid, dtype="float32",
                             tags=terrain_tags(plan.cfg, n, settings_hash=hashes[n], dem=terrain.dem.path,
                                               halo=halo, relief=relief),
