@@ -13,7 +13,8 @@ mountain DEM on the same 30 m UTM grid (ridges 5-9 km apart, ~2400 m of relief, 
    median of --repeat rounds (the scene's job only, after one warm-up each);
 3. one FAO-56 day the same way.
 
-Prints the times and ratios; nothing is asserted.  See benchmarks/README.md.
+Prints the times and ratios; nothing is asserted.  The figures measured so far are in the
+README's section on mountain basins.
 """
 
 from __future__ import annotations

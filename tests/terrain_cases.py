@@ -54,8 +54,9 @@ def terrain_config(folder: Path, dem: np.ndarray, *, res: float, x0: float = X_M
     full = lambda v: np.full(dem.shape, v)   # noqa: E731
     static = {"elevation": write_tif(folder / "dem.tif", dem, t)}
     entries = []
-    for k, (time, rs) in enumerate(scenes):
-        e = {"time": time, "shortwave_down": write_tif(folder / f"rs{k}.tif", full(rs), t)}
+    for k, (time, rs) in enumerate(scenes):      # rs None: modelled clear sky
+        e = {"time": time} if rs is None else {"time": time,
+                                               "shortwave_down": write_tif(folder / f"rs{k}.tif", full(rs), t)}
         e.update({n: write_tif(folder / f"{n}.tif", full(v), t) for n, v in SCENE.items()})
         e.update(extra_scene or {})
         entries.append(e)

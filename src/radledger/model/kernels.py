@@ -137,13 +137,13 @@ def scene_kernel(arrays: dict[str, np.ndarray], sun: SunGeometry | None, lonlat,
     if p.terrain != "none":
         layers = terrain_inputs(arrays, q, B["input_missing"])
         svf = layers[2]
-        terms = None
+        if sun is None:   # the terrain's source brings the sun on its lattice
+            sun = sun_from_lattice(arrays["sun_lattice"], shape)
+        terms = None      # a modelled App. D clear sky keeps its own beam and diffuse terms
         if "shortwave_down" not in arrays and p.clear_sky_shortwave == "beam-diffuse":
             pressure = ph.atmospheric_pressure(z)
             terms = ph.clear_sky_beam_diffuse_indices(sun.cos_zenith, pressure,
                                                       ph.precipitable_water(ea, pressure))
-        if sun is None:   # the terrain's source brings the sun on its lattice
-            sun = sun_from_lattice(arrays["sun_lattice"], shape)
         rs_in = scene_incident_shortwave(arrays, sun, rs, albedo, layers, p.terrain, clear_sky_terms=terms)
 
     eps_clear = ph.sky_emissivity(ta, ea, model=p.sky_emissivity)
