@@ -236,6 +236,11 @@ class Lattice:
         self.rows = np.unique(np.r_[np.arange(0, self.h, step), self.h - 1])
         self.cols = np.unique(np.r_[np.arange(0, self.w, step), self.w - 1])
 
+    @classmethod
+    def of_shape(cls, shape: tuple[int, int], step: int = LATTICE_STEP) -> "Lattice":
+        """The lattice of an array of ``shape`` (for spreading values already on it; no coordinates)."""
+        return cls(None, Window(0, 0, shape[1], shape[0]), step)
+
     def xy(self) -> tuple[np.ndarray, np.ndarray]:
         """The lattice points in the grid's CRS (2-D, rows x cols)."""
         t = self.grid.window_transform(self.window)

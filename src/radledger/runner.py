@@ -1,6 +1,7 @@
 """``radledger run``: the stages a config asks for, in dependency order.
 
-scenes and days (each product written as soon as it is complete) ->
+the static terrain layers (methods.terrain) -> scenes and days (each
+product written as soon as it is complete) ->
 composites over the finished day/scene products -> zone tables -> NetCDF
 stacks -> Zarr stores -> STAC catalog -> quicklooks -> validation against
 net radiometers (weather grids from station tables come first).  A rerun
@@ -140,6 +141,9 @@ def _stages(plan: Plan, engine: Engine, report: RunReport, overwrite: bool) -> N
     if cfg.stations is not None:
         from .stages.weather import run_weather
         add("weather", *run_weather(plan, engine, overwrite=overwrite))
+    if cfg.methods.terrain != "none":
+        from .stages.terrain import run_terrain
+        add("terrain", *run_terrain(plan, engine, overwrite=overwrite))
     streams = {}
     if cfg.composites:   # composites whose dates are all computed now accumulate as the dates go by
         from .stages.streams import composite_streams

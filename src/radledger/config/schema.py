@@ -16,12 +16,18 @@ from ..model.products import DEFAULT_PRODUCTS
 
 __all__ = ["Config", "GridSpec", "LayerDecoding", "InputSpec", "EmissivitySpec", "Methods", "Scene", "Day",
            "CompositeSpec", "ZonesSpec", "OutputSpec", "StationsSpec", "ValidationSpec", "DEFAULTS", "keys_of",
-           "RESAMPLING", "CLEAR_SKY_MODELS", "SCENE_TO_DAY", "ZONE_WEIGHTING"]
+           "RESAMPLING", "CLEAR_SKY_MODELS", "SCENE_TO_DAY", "ZONE_WEIGHTING", "TERRAIN_METHODS",
+           "DIFFUSE_FRACTION_MODELS"]
 
 ZONE_WEIGHTING = ("centre", "coverage")
 RESAMPLING = ("nearest", "bilinear", "cubic", "cubic_spline", "lanczos", "average")
 CLEAR_SKY_MODELS = ("fao56", "beam-diffuse")
 SCENE_TO_DAY = ("none", "sinusoidal", "shortwave-ratio")
+#: methods.terrain: level ground; slopes (Horn 1981) and the plane's sky view; plus cast shadows and
+#: the sky view from the DEM's horizons (Dozier & Frew 1990)
+TERRAIN_METHODS = ("none", "slope", "shading")
+#: methods.diffuse_fraction: beam/diffuse split of a given shortwave, Erbs, Klein & Duffie (1982)
+DIFFUSE_FRACTION_MODELS = ("erbs",)
 
 
 @dataclass(frozen=True)
@@ -56,6 +62,8 @@ class Methods:
     clouds: str = "none"
     clear_sky_shortwave: str = "beam-diffuse"
     scene_to_day: str = "none"
+    terrain: str = "none"
+    diffuse_fraction: str = "erbs"
 
 
 _STACK_SUFFIXES = (".nc", ".nc4", ".cdf", ".h5", ".hdf5", ".zarr", ".zarr/")

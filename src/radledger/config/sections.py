@@ -8,11 +8,13 @@ from pathlib import Path
 from ..io.cog import COMPRESSIONS
 from ..io.paths import is_remote
 from ..model.layers import ALL_LAYERS, LAYERS
+from ..model.needs import terrain_reason
 from ..model.products import ALL_PRODUCT_NAMES, DEFAULT_PRODUCTS
 from ..physics.longwave import CLOUD_MODELS, SKY_EMISSIVITY_MODELS
 from ..units import canonical_unit
-from .schema import (CLEAR_SKY_MODELS, RESAMPLING, SCENE_TO_DAY, EmissivitySpec, GridSpec, LayerDecoding,
-                     Methods, OutputSpec, ZONE_WEIGHTING, ZonesSpec, keys_of)
+from .schema import (CLEAR_SKY_MODELS, DIFFUSE_FRACTION_MODELS, RESAMPLING, SCENE_TO_DAY, TERRAIN_METHODS,
+                     EmissivitySpec, GridSpec, LayerDecoding, Methods, OutputSpec, ZONE_WEIGHTING, ZonesSpec,
+                     keys_of)
 
 __all__ = ["layers", "grid", "emissivity", "methods", "zones", "output"]
 
@@ -129,6 +131,11 @@ def emissivity(v, value) -> EmissivitySpec:
 
 def methods(v, value) -> Methods:
     value = v.mapping(value, "methods", keys_of(Methods))
+    terrain = v.choice(value.get("terrain"), "methods.terrain", TERRAIN_METHODS, Methods.terrain)
+    # the static terrain layers come from the one DEM under static: (model/needs.py says why)
+    static = v.raw.get("static") if isinstance(v.raw, dict) else None
+    if terrain_reason(terrain) and not (isinstance(static, dict) and "elevation" in static):
+        v.fail("static.elevation", f"needed for {terrain_reason(terrain)}; give a DEM")
     return Methods(
         sky_emissivity=v.choice(value.get("sky_emissivity"), "methods.sky_emissivity",
                                    SKY_EMISSIVITY_MODELS, Methods.sky_emissivity),
@@ -137,6 +144,9 @@ def methods(v, value) -> Methods:
                                         CLEAR_SKY_MODELS, Methods.clear_sky_shortwave),
         scene_to_day=v.choice(value.get("scene_to_day"), "methods.scene_to_day", SCENE_TO_DAY,
                                  Methods.scene_to_day),
+        terrain=terrain,
+        diffuse_fraction=v.choice(value.get("diffuse_fraction"), "methods.diffuse_fraction",
+                                  DIFFUSE_FRACTION_MODELS, Methods.diffuse_fraction),
     )
 
 

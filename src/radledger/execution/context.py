@@ -46,7 +46,7 @@ class ChunkContext:
             self._lonlat = self.grid.lonlat(self.window)
         return self._lonlat
 
-    def day_solar(self, day_of_year: int, *, daylight: bool = False) -> DaySolar:
+    def day_solar(self, day_of_year: int, *, daylight: bool = False, latitude: bool = False) -> DaySolar:
         """FAO-56 R_a (eq. 21) and day length N (eq. 34) of one day over the window.
 
         Both depend only on latitude, smoothly: they are evaluated at the lattice's points and
@@ -59,4 +59,5 @@ class ChunkContext:
         ra = ph.extraterrestrial_daily(lat, day_of_year)
         n = ph.daylight_hours(ph.sunset_hour_angle(lat, ph.solar_declination(day_of_year))) if daylight else None
         return DaySolar(self._lattice.spread(ra, np.float32),
-                        self._lattice.spread(n, np.float32) if daylight else None)
+                        self._lattice.spread(n, np.float32) if daylight else None,
+                        self.lonlat()[1] if latitude else None)

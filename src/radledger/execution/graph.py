@@ -92,7 +92,8 @@ def chunk_products(job: Job, grid: TargetGrid, window, names: tuple[str, ...], *
             out = scene_kernel(arrays, sun, lonlat, p, reuse=reuse)
         else:
             p = job.params
-            out = day_kernel(arrays, ctx.day_solar(p.day_of_year, daylight=p.shortwave_daylight_mean), p)
+            out = day_kernel(arrays, ctx.day_solar(p.day_of_year, daylight=p.shortwave_daylight_mean,
+                                                  latitude=p.terrain != "none"), p)
     return {n: out[n] for n in names}
 
 

@@ -7,7 +7,9 @@ and writes the products directly (benchmarks/bench_kernel.py measures both).
 It covers the configuration most runs use (model/needs.py decides where it
 applies, in one place): Brutsaert sky emissivity, no cloud correction,
 shortwave given, humidity as vapour pressure, emissivity from a table or a
-constant, products among net radiation / shortwave / longwave / quality.
+constant, products among net radiation / shortwave / longwave / quality /
+incident shortwave, on level ground or on terrain (the shortwave on each
+slope from model/terrain_fast.py, the sky-view factor in the longwave).
 Everything else goes through the NumPy kernel, which is the reference:
 tests/test_fused.py checks that the two agree, product by product and bit by
 bit.
@@ -28,6 +30,7 @@ from ..physics.constants import STEFAN_BOLTZMANN
 from .layers import PHYSICAL_RANGES
 from .products import SCENE_QUALITY_BITS as QUALITY_BITS
 from .surface import chunk_emissivity
+from .terrain_fast import incident_shortwave_fast
 
 __all__ = ["fused_scene", "FUSED_INPUTS"]
 
@@ -44,12 +47,15 @@ FUSED_INPUTS = ("albedo", "surface_temperature", "air_temperature", "vapour_pres
 _LIMITS = np.array([_R[name] for name in FUSED_INPUTS], dtype=np.float32)
 
 
-def _loop(inputs, classes, lut, unknown_value, outputs, limits, sigma, k):
+def _loop(inputs, classes, lut, unknown_value, outputs, limits, sigma, k, terrain, with_terrain):
     """One pass over a chunk; returns the number of pixels whose class the table lacks.
 
     ``inputs``: flat float32 arrays in :data:`FUSED_INPUTS` order; ``limits``:
     their (low, high) physical ranges; ``outputs``: net radiation, net
-    shortwave, net longwave (float32) and quality (uint8).
+    shortwave, net longwave, incident shortwave (float32) and quality (uint8).
+    ``terrain`` (used ``with_terrain``): the shortwave on each slope, the slope
+    (for its gaps) and the sky-view factor V; the downwelling longwave is then
+    ``V L_sky + (1 - V) eps sigma Ts^4`` (model/terrain.py).
 
     float32 arithmetic throughout (inputs are float32; the products are written
     as float32): the error against the float64 NumPy kernel stays below
@@ -58,7 +64,8 @@ def _loop(inputs, classes, lut, unknown_value, outputs, limits, sigma, k):
     it is both "missing" and kept NaN without a test of its own).
     """
     albedo, ts, ta, ea, rs = inputs
-    rn, rns, rnl, q = outputs
+    rn, rns, rnl, inc, q = outputs
+    incident, slope, svf = terrain
     n = albedo.size
     nan = np.float32(np.nan)
     one = np.float32(1.0)
@@ -91,6 +98,12 @@ def _loop(inputs, classes, lut, unknown_value, outputs, limits, sigma, k):
         tair = tair if ok_ta else nan
         e = e if ok_e else nan
         s = s if ok_s else nan
+        v = one
+        s_in = s
+        if with_terrain:
+            v = svf[i]
+            missing = missing | (slope[i] != slope[i]) | (v != v)
+            s_in = incident[i] if (ok_s & ok_a) else nan
         flag = (_MISSING if missing else 0) | (_RANGE if bad else 0)
         em = nan
         if c == c:
@@ -101,13 +114,17 @@ def _loop(inputs, classes, lut, unknown_value, outputs, limits, sigma, k):
                 unknown += 1
                 em = unknown_value
                 flag |= _DEFAULT
-        net_sw = (one - a) * s
+        net_sw = (one - a) * s_in
         t2 = t * t
         ta2 = tair * tair
-        net_lw = em * sig * (t2 * t2 - kk * (e / tair) ** seventh * (ta2 * ta2))
+        sky = kk * (e / tair) ** seventh * (ta2 * ta2)
+        if with_terrain:   # sky in view, the rest terrain at the pixel's own Ts and emissivity
+            sky = v * sky + (one - v) * em * (t2 * t2)
+        net_lw = em * sig * (t2 * t2 - sky)
         rn[i] = net_sw - net_lw
         rns[i] = net_sw
         rnl[i] = net_lw
+        inc[i] = s_in
         q[i] = flag
     return unknown
 
@@ -119,7 +136,8 @@ _local = threading.local()
 
 
 def _fresh(n: int):
-    return (np.empty(n, np.float32), np.empty(n, np.float32), np.empty(n, np.float32), np.empty(n, np.uint8))
+    return (np.empty(n, np.float32), np.empty(n, np.float32), np.empty(n, np.float32), np.empty(n, np.float32),
+            np.empty(n, np.uint8))
 
 
 def _scratch(n: int):
@@ -151,12 +169,20 @@ def fused_scene(arrays: dict[str, np.ndarray], params, *, reuse: bool = False) -
         lut = np.ascontiguousarray(params.emissivity_lut, dtype=np.float32)
     default = params.emissivity_unknown
     n = flat["albedo"].size
-    rn, rns, rnl, q = _scratch(n) if reuse else _fresh(n)
+    rn, rns, rnl, inc, q = _scratch(n) if reuse else _fresh(n)
+    with_terrain = params.terrain != "none"
+    if with_terrain:
+        terrain = (incident_shortwave_fast(arrays, params.terrain).ravel(),
+                   np.ascontiguousarray(arrays["slope"], dtype=np.float32).ravel(),
+                   np.ascontiguousarray(arrays["sky_view_factor"], dtype=np.float32).ravel())
+    else:
+        terrain = (np.empty(0, np.float32),) * 3
     unknown = _loop_jit(tuple(flat[k] for k in FUSED_INPUTS), classes, lut,
-                        np.float32(np.nan if default is None else default), (rn, rns, rnl, q),
-                        _LIMITS, STEFAN_BOLTZMANN, _BRUTSAERT)
+                        np.float32(np.nan if default is None else default), (rn, rns, rnl, inc, q),
+                        _LIMITS, STEFAN_BOLTZMANN, _BRUTSAERT, terrain, with_terrain)
     if unknown and default is None:
         # the loop only counts them; the NumPy lookup names the classes and raises
         chunk_emissivity(arrays, params, np.zeros(shape, np.uint8))
     return {"net_radiation": rn.reshape(shape), "net_shortwave": rns.reshape(shape),
-            "net_longwave": rnl.reshape(shape), "quality": q.reshape(shape)}
+            "net_longwave": rnl.reshape(shape), "incident_shortwave": inc.reshape(shape),
+            "quality": q.reshape(shape)}

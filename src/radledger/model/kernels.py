@@ -12,11 +12,12 @@ import numpy as np
 from .. import physics as ph
 from .albedo import FILL_DEFAULT, FILL_HELD, FILL_INTERPOLATED, REFERENCE_ALBEDO
 from .fused import fused_scene
-from .layers import PHYSICAL_RANGES
+from .layers import NDSI_SNOW_THRESHOLD, PHYSICAL_RANGES
 from .params import DayParams, DaySolar, SceneParams
 from .products import DAY_QUALITY_BITS, SCENE_DAY_PRODUCT, SCENE_QUALITY_BITS
 from .sun import SunGeometry
 from .surface import chunk_emissivity
+from .terrain import daily_slope_ratio, scene_incident_shortwave, sun_from_lattice, terrain_inputs
 
 __all__ = ["scene_kernel", "day_kernel", "humidity_to_kpa", "clear_sky_shortwave"]
 
@@ -62,6 +63,33 @@ def clear_sky_shortwave(sun: SunGeometry, elevation: np.ndarray, vapour_pressure
     return ph.clear_sky_shortwave_fao56(sun.extraterrestrial, elevation)
 
 
+def snow_fraction(arrays: dict, quality: np.ndarray, bit: int) -> np.ndarray | None:
+    """Snow-covered fraction [1] from ``snow_cover``, or from ``ndsi`` (snow where NDSI >= 0.4, Hall et
+    al. 1995); None without either.  Nodata: no snow assumed; out of range: NaN, flagged.  Sets ``bit``
+    where snow lies."""
+    if "snow_cover" in arrays:
+        f = _checked_optional(arrays, "snow_cover", quality)
+    elif "ndsi" in arrays:
+        f = ph.snow_fraction_from_ndsi(_checked_optional(arrays, "ndsi", quality), NDSI_SNOW_THRESHOLD)
+    else:
+        return None
+    quality[np.isfinite(f) & (f > 0)] |= bit
+    return f
+
+
+def _checked_optional(arrays: dict, name: str, quality: np.ndarray) -> np.ndarray:
+    """An optional layer: nodata stays NaN unflagged; out-of-range values become -inf, flagged (and
+    spoil the pixel's products)."""
+    a = arrays[name]
+    lo, hi = PHYSICAL_RANGES[name]
+    with np.errstate(invalid="ignore"):
+        bad = (a < lo) | (a > hi)
+    if bad.any():
+        quality[bad] |= B["out_of_range"]
+        a = np.where(bad, np.float32(np.inf), a)
+    return a
+
+
 def _sun_flags(q: np.ndarray, sun: SunGeometry) -> None:
     q[sun.sun_down] |= B["sun_down"]
     low = ph.low_sun(sun.elevation) & ~sun.sun_down
@@ -89,6 +117,10 @@ def scene_kernel(arrays: dict[str, np.ndarray], sun: SunGeometry | None, lonlat,
     ta = _checked(arrays, "air_temperature", q)
     ea = humidity_to_kpa(arrays, q, ta)
     eps_s = chunk_emissivity(arrays, p, q)
+    snow = snow_fraction(arrays, q, B["snow"])
+    if snow is not None:   # nodata: the land-cover emissivity as it is; out of range (inf): NaN
+        eps_s = np.where(np.isnan(snow), eps_s, ph.snow_emissivity_blend(eps_s, snow))
+        eps_s = np.where(np.isinf(snow), np.nan, eps_s)
 
     if sun is not None:
         _sun_flags(q, sun)
@@ -101,6 +133,18 @@ def scene_kernel(arrays: dict[str, np.ndarray], sun: SunGeometry | None, lonlat,
     else:
         rs = rso
         q |= B["modelled_shortwave"]
+    rs_in, svf = rs, None
+    if p.terrain != "none":
+        layers = terrain_inputs(arrays, q, B["input_missing"])
+        svf = layers[2]
+        if sun is None:   # the terrain's source brings the sun on its lattice
+            sun = sun_from_lattice(arrays["sun_lattice"], shape)
+        terms = None      # a modelled App. D clear sky keeps its own beam and diffuse terms
+        if "shortwave_down" not in arrays and p.clear_sky_shortwave == "beam-diffuse":
+            pressure = ph.atmospheric_pressure(z)
+            terms = ph.clear_sky_beam_diffuse_indices(sun.cos_zenith, pressure,
+                                                      ph.precipitable_water(ea, pressure))
+        rs_in = scene_incident_shortwave(arrays, sun, rs, albedo, layers, p.terrain, clear_sky_terms=terms)
 
     eps_clear = ph.sky_emissivity(ta, ea, model=p.sky_emissivity)
     eps_sky = eps_clear
@@ -113,7 +157,9 @@ def scene_kernel(arrays: dict[str, np.ndarray], sun: SunGeometry | None, lonlat,
 
     out: dict[str, np.ndarray] = {}
     rld = ph.longwave_down(eps_sky, ta)
-    rns = ph.net_shortwave(albedo, rs)
+    if svf is not None:   # sky in view, and terrain at the pixel's own Ts and emissivity (Pluess & Ohmura 1997)
+        rld = ph.longwave_down_terrain(rld, svf, ts, eps_s)
+    rns = ph.net_shortwave(albedo, rs_in)
     rnl = ph.net_longwave(eps_s, ts, rld)
     want = set(p.products)
     if "net_radiation" in want:
@@ -130,6 +176,8 @@ def scene_kernel(arrays: dict[str, np.ndarray], sun: SunGeometry | None, lonlat,
         out["surface_emissivity"] = eps_s
     if "sky_emissivity" in want:
         out["sky_emissivity"] = eps_sky
+    if "incident_shortwave" in want:
+        out["incident_shortwave"] = rs_in
     if SCENE_DAY_PRODUCT in want:
         out[SCENE_DAY_PRODUCT] = _scene_to_day(out.get("net_radiation", rns - rnl), lonlat, sun, rso, z, p)
     if "quality" in want:
@@ -173,15 +221,26 @@ def day_kernel(arrays: dict[str, np.ndarray], solar: DaySolar, p: DayParams) -> 
     else:   # FAO-56's grass reference, flagged: snow, water and forest differ a lot
         albedo = np.float32(REFERENCE_ALBEDO)
         q |= B["albedo_default"]
+    snow_fraction(arrays, q, B["snow_on_ground"])   # flagged only: eq. 39 has no surface emissivity
     terms = ph.fao56_net_radiation_components_daily(rs, tmax, tmin, ea, None, p.day_of_year, z, albedo,
                                                     extraterrestrial=solar.extraterrestrial)
+    rs_in = rs
+    if p.terrain != "none":
+        # Rs on the slope = Rs x clear-sky ratio slope/flat; Rs/Rso of the net longwave stays on flat ground
+        pressure = ph.atmospheric_pressure(z)
+        layers = terrain_inputs(arrays, q, B["input_missing"])
+        rs_in = rs * daily_slope_ratio(arrays, layers, solar.latitude, p.day_of_year, pressure,
+                                       ph.precipitable_water(ea, pressure), albedo, p.terrain)
+        terms = dict(terms, net_shortwave=ph.net_shortwave(albedo, rs_in))
+        terms["net_radiation"] = terms["net_shortwave"] - terms["net_longwave"]
+    terms["incident_shortwave"] = rs_in
     with np.errstate(invalid="ignore", divide="ignore"):
         rso = terms["clear_sky_shortwave"]
         lo, hi = ph.RELATIVE_SHORTWAVE_LIMITS
         q[rs > hi * rso] |= B["shortwave_capped"]
         q[(rso > 0) & (rs < lo * rso)] |= B["overcast_held"]
     out = {}
-    for name in ("net_radiation", "net_shortwave", "net_longwave", "clear_sky_shortwave"):
+    for name in ("net_radiation", "net_shortwave", "net_longwave", "clear_sky_shortwave", "incident_shortwave"):
         if name in p.products:
             out[name] = np.broadcast_to(terms[name], shape)
     if "quality" in p.products:

@@ -12,8 +12,8 @@ from dataclasses import dataclass
 
 from ..kinds import TimeKind
 
-__all__ = ["Layer", "LAYERS", "PHYSICAL_RANGES", "HUMIDITY_LAYERS", "SCENE_LAYERS", "DAY_LAYERS",
-           "STATIC_ONLY", "ALL_LAYERS", "layer_range", "SHORTWAVE_UNITS"]
+__all__ = ["Layer", "LAYERS", "PHYSICAL_RANGES", "HUMIDITY_LAYERS", "SNOW_LAYERS", "SCENE_LAYERS", "DAY_LAYERS",
+           "STATIC_ONLY", "ALL_LAYERS", "layer_range", "SHORTWAVE_UNITS", "NDSI_SNOW_THRESHOLD"]
 
 
 @dataclass(frozen=True)
@@ -50,7 +50,14 @@ LAYERS: dict[str, Layer] = {x.name: x for x in [
     Layer("shortwave_down", ("W m-2", "MJ m-2 day-1", "W m-2 daylight"), (0.0, 1500.0)),
     Layer("land_cover", ("1",), None, categorical=True),
     Layer("elevation", ("m",), (-500.0, 9000.0)),
+    # snow on the ground (optional): the snow-covered fraction of each pixel, or the Normalized
+    # Difference Snow Index, read as snow where NDSI >= NDSI_SNOW_THRESHOLD (Hall et al. 1995)
+    Layer("snow_cover", ("1",), (0.0, 1.0)),
+    Layer("ndsi", ("1",), (-1.0, 1.0)),
 ]}
+
+#: NDSI at and above which a pixel is snow-covered (Hall, Riggs & Salomonson 1995)
+NDSI_SNOW_THRESHOLD = 0.4
 
 #: daily shortwave [MJ m-2 day-1]: extraterrestrial radiation stays below 45 everywhere
 DAILY_SHORTWAVE_RANGE = (0.0, 45.0)
@@ -61,8 +68,11 @@ PHYSICAL_RANGES: dict[str, tuple[float, float]] = {
 }
 
 HUMIDITY_LAYERS = ("vapour_pressure", "dewpoint_temperature", "relative_humidity")
-SCENE_LAYERS = ("albedo", "surface_temperature", "air_temperature", "shortwave_down") + HUMIDITY_LAYERS
-DAY_LAYERS = ("shortwave_down", "air_temperature_max", "air_temperature_min", "albedo") + HUMIDITY_LAYERS
+SNOW_LAYERS = ("snow_cover", "ndsi")          # the first given is used
+SCENE_LAYERS = ("albedo", "surface_temperature", "air_temperature", "shortwave_down") + HUMIDITY_LAYERS \
+    + SNOW_LAYERS
+DAY_LAYERS = ("shortwave_down", "air_temperature_max", "air_temperature_min", "albedo") + HUMIDITY_LAYERS \
+    + SNOW_LAYERS
 STATIC_ONLY = ("land_cover", "elevation")
 ALL_LAYERS = tuple(dict.fromkeys(SCENE_LAYERS + DAY_LAYERS + STATIC_ONLY))
 

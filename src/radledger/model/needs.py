@@ -15,6 +15,12 @@ surface emissivity (land cover, or a constant).  Beyond that:
 
 A day (FAO-56) needs shortwave, Tmax, Tmin, one humidity layer and the
 elevation (eq. 37); albedo is optional (0.23, flagged).
+
+``methods.terrain`` (slope or shading) needs the DEM (the static terrain
+layers are computed from it once, before any scene or day; their source
+brings the sun over each scene's chunk).  The fused loop covers terrain
+scenes too (model/terrain_fast.py).  A snow layer (``snow_cover``, else
+``ndsi``) is read where given; scenes with snow take the NumPy kernel.
 """
 
 from __future__ import annotations
@@ -22,13 +28,14 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from ..kinds import TimeKind
-from .layers import HUMIDITY_LAYERS
+from .layers import HUMIDITY_LAYERS, SNOW_LAYERS
 from .products import SCENE_DAY_PRODUCT
 
-__all__ = ["Needs", "scene_needs", "day_needs", "FUSED_PRODUCTS", "humidity_layer"]
+__all__ = ["Needs", "scene_needs", "day_needs", "FUSED_PRODUCTS", "humidity_layer", "snow_layer",
+           "terrain_reason"]
 
 #: products the fused loop computes (model/fused.py)
-FUSED_PRODUCTS = ("net_radiation", "net_shortwave", "net_longwave", "quality")
+FUSED_PRODUCTS = ("net_radiation", "net_shortwave", "net_longwave", "quality", "incident_shortwave")
 
 
 @dataclass(frozen=True)
@@ -40,10 +47,17 @@ class Needs:
     clear_sky: bool              # clear-sky shortwave (sun + elevation)
     fused: bool                  # the fused loop computes exactly what the NumPy kernel would
     why_elevation: str = ""      # for messages: what needs the DEM
+    terrain: str = "none"        # methods.terrain: none | slope | shading (static layers from the DEM)
 
     @property
     def elevation(self) -> bool:
-        return "elevation" in self.layers
+        """Whether the DEM is needed: read by the kernel, or the source of the static terrain layers."""
+        return "elevation" in self.layers or self.terrain != "none"
+
+    @property
+    def snow(self) -> str | None:
+        """The snow layer the kernel reads (``snow_cover`` or ``ndsi``), if any."""
+        return snow_layer(self.layers)
 
 
 def humidity_layer(given) -> str | None:
@@ -51,8 +65,18 @@ def humidity_layer(given) -> str | None:
     return next((h for h in HUMIDITY_LAYERS if h in given), None)
 
 
+def snow_layer(given) -> str | None:
+    """The snow layer used when both are given: the snow-covered fraction, then NDSI."""
+    return next((s for s in SNOW_LAYERS if s in given), None)
+
+
+def terrain_reason(terrain: str) -> str:
+    """Why ``methods.terrain`` needs the DEM ("" for none): the message's words."""
+    return "" if terrain == "none" else f"methods.terrain: {terrain} (slope, aspect and sky view from the DEM)"
+
+
 def scene_needs(given, *, products, sky_emissivity: str, clouds: str, scene_to_day: str = "none",
-                emissivity_constant: bool = False) -> Needs:
+                emissivity_constant: bool = False, terrain: str = "none") -> Needs:
     """The needs of a scene given its available layers and the run's methods and products."""
     given = set(given)
     shortwave = "shortwave_down" in given
@@ -65,7 +89,10 @@ def scene_needs(given, *, products, sky_emissivity: str, clouds: str, scene_to_d
     if scene_to_day == "shortwave-ratio":
         reasons.append("methods.scene_to_day: shortwave-ratio (clear-sky shortwave)")
     clear_sky = bool(reasons)
+    if terrain_reason(terrain):
+        reasons.append(terrain_reason(terrain))
     products = tuple(products) + ((SCENE_DAY_PRODUCT,) if scene_to_day != "none" else ())
+    # (terrain: the static layers' source brings the sun over each chunk itself, model/terrain.py)
     sun = clear_sky or "quality" in products or scene_to_day != "none"
     layers = ["albedo", "surface_temperature", "air_temperature"]
     if humidity:
@@ -78,13 +105,16 @@ def scene_needs(given, *, products, sky_emissivity: str, clouds: str, scene_to_d
         layers.append("land_cover")
     if clear_sky:
         layers.append("elevation")
+    snow = snow_layer(given)
+    if snow:
+        layers.append(snow)
     fused = (sky_emissivity == "brutsaert" and clouds == "none" and shortwave and humidity == "vapour_pressure"
-             and set(products) <= set(FUSED_PRODUCTS))
+             and set(products) <= set(FUSED_PRODUCTS) and not snow)
     return Needs(TimeKind.SCENES, tuple(layers), sun=sun, clear_sky=clear_sky, fused=fused,
-                 why_elevation="; ".join(reasons))
+                 why_elevation="; ".join(reasons), terrain=terrain)
 
 
-def day_needs(given, *, products) -> Needs:
+def day_needs(given, *, products, terrain: str = "none") -> Needs:
     """The needs of an FAO-56 day given its available layers."""
     given = set(given)
     layers = ["shortwave_down", "air_temperature_max", "air_temperature_min"]
@@ -94,5 +124,8 @@ def day_needs(given, *, products) -> Needs:
     if "albedo" in given:
         layers.append("albedo")
     layers.append("elevation")
+    snow = snow_layer(given)
+    if snow:
+        layers.append(snow)
     return Needs(TimeKind.DAYS, tuple(layers), sun=False, clear_sky=True, fused=False,
-                 why_elevation="FAO-56 daily maps (clear-sky shortwave, eq. 37)")
+                 why_elevation="FAO-56 daily maps (clear-sky shortwave, eq. 37)", terrain=terrain)

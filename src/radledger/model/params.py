@@ -17,6 +17,7 @@ class DaySolar:
     """The sun's part of one day over a chunk (FAO-56): what depends only on latitude and date."""
     extraterrestrial: np.ndarray    # R_a, eq. 21 [MJ m-2 day-1]
     daylight_hours: np.ndarray | None = None   # N, eq. 34 [hour] (when a daylight mean needs it)
+    latitude: np.ndarray | None = None         # the pixels' latitude [deg] (when terrain needs it)
 
 
 @dataclass(frozen=True)
@@ -33,6 +34,8 @@ class SceneParams:
     land_cover_path: str = ""                    # for the error message
     emissivity_table: str = ""
     scene_to_day: str = "none"                   # none | sinusoidal | shortwave-ratio
+    terrain: str = "none"                        # none | slope | shading (model/terrain.py)
+    terrain_layers: str = ""                     # identity (settings hash) of the static terrain layers
 
     @property
     def day_of_year(self) -> int:
@@ -50,6 +53,8 @@ class DayParams:
     products: tuple[str, ...]
     needs: Needs
     shortwave_daylight_mean: bool = False   # shortwave given as a mean over daylight hours [W m-2]
+    terrain: str = "none"                   # none | slope | shading (model/terrain.py)
+    terrain_layers: str = ""                # identity (settings hash) of the static terrain layers
 
     @property
     def day_of_year(self) -> int:

@@ -11,7 +11,10 @@ where a signed product's limits straddle zero (red = energy gained by the surfac
 blue = lost: ``RdBu_r``, or ``RdBu`` for net longwave, whose positive values are a
 loss), a sequential one (``viridis``) where they have one sign; NaN is light grey.  Counts (valid dates of a composite) get one colour
 per whole number and integer ticks.  Quality bit flags are drawn as discrete
-categories (one per bit combination present) with a legend.
+categories (one per bit combination present) with a legend.  Directions (a terrain's aspect) take a
+cyclic colour map (``hsv``) over 0-360 deg with the compass points marked.
+:func:`write_side_by_side` draws two maps of one quantity on one colour scale (level ground vs
+terrain).
 """
 
 from __future__ import annotations
@@ -38,7 +41,8 @@ from ..errors import InputError
 from ..io.atomic import atomic_output
 from ..io.vectors import Zones
 
-__all__ = ["write_quicklook", "FIGSIZE", "DPI", "PERCENTILES", "NAN_COLOUR"]
+__all__ = ["write_quicklook", "write_side_by_side", "read_decimated", "FIGSIZE", "DPI", "PERCENTILES",
+           "NAN_COLOUR"]
 
 FIGSIZE = (8.0, 6.5)     # inches
 DPI = 100                # -> 800 x 650 px
@@ -46,6 +50,7 @@ PERCENTILES = (2, 98)    # colour limits of continuous products
 NAN_COLOUR = "#d4d4d4"   # light grey
 DIVERGING_CMAP = "RdBu_r"
 SEQUENTIAL_CMAP = "viridis"
+CYCLIC_CMAP = "hsv"
 NO_FLAGS_COLOUR = "#eef6e6"  # pale: a clean pixel should not draw the eye
 OTHER_COLOUR = "0.45"
 # flagged combinations: tab20's strong colours, then its light ones, without greens and greys
@@ -68,6 +73,15 @@ def _read_decimated(src, max_pixels: int, categorical: bool) -> np.ndarray:
     if src.nodata is not None and not np.isnan(src.nodata):
         data[data == src.nodata] = np.nan
     return np.ma.masked_invalid(data)
+
+
+def read_decimated(tif_path: str | os.PathLike, max_pixels: int = 1000):
+    """A product read decimated (from its overviews): (masked data, bounds, CRS)."""
+    try:
+        with rasterio.open(tif_path) as src:
+            return _read_decimated(src, int(max_pixels), False), tuple(src.bounds), src.crs
+    except rasterio.errors.RasterioIOError as exc:
+        raise InputError(f"{tif_path}: cannot open for a quicklook ({exc}); check the product was written") from None
 
 
 def _axes_frame(crs) -> tuple[float, str, str, float]:
@@ -127,6 +141,18 @@ def _continuous(ax, fig, data, extent, *, bar_label: str, diverging: bool, posit
             sign = "below" if lo >= 0 else "above"
             note += f"; {other / finite.size:.2%} of the pixels are {sign} 0 (drawn in the end colour)"
         fig.text(0.01, 0.01, note, fontsize=7, color="0.35")
+
+
+def _cyclic(ax, fig, data, extent, *, bar_label: str):
+    """Directions clockwise from north [deg]: a cyclic map over 0-360, ticks at the compass points."""
+    cmap = colormaps[CYCLIC_CMAP].with_extremes(bad=NAN_COLOUR)
+    image = ax.imshow(data, cmap=cmap, norm=colors.Normalize(0.0, 360.0), extent=extent, interpolation="nearest",
+                      origin="upper")
+    bar = fig.colorbar(image, ax=ax, shrink=0.9, pad=0.02, ticks=[0, 90, 180, 270, 360])
+    bar.ax.set_yticklabels(["N 0", "E 90", "S 180", "W 270", "N 360"])
+    bar.set_label(bar_label)
+    fig.text(0.01, 0.01, "cyclic colours: 0 and 360 deg (north) meet; grey = no value (flat or no data)",
+             fontsize=7, color="0.35")
 
 
 def _counts(ax, fig, data, extent, *, bar_label: str, most: int):
@@ -207,7 +233,7 @@ def _draw_zones(ax, zones: Zones, crs, scale: float, extent):
 def write_quicklook(tif_path: str | os.PathLike, png_path: str | os.PathLike, *, title: str, units: str,
                     diverging: bool, zones: Zones | None = None, categorical_bits: Mapping[str, int] | None = None,
                     max_pixels: int = 1000, label: str | None = None, positive: str | None = None,
-                    counts: int | None = None) -> Path:
+                    counts: int | None = None, cyclic: bool = False) -> Path:
     """Draw a product GeoTIFF as an ~800 x 650 px PNG map (atomic write).
 
     Parameters
@@ -240,6 +266,9 @@ def write_quicklook(tif_path: str | os.PathLike, png_path: str | os.PathLike, *,
     counts : int, optional
         Draw whole numbers 0..``counts`` (e.g. valid dates of a composite), one colour
         each, with integer ticks.
+    cyclic : bool, optional
+        Directions in degrees clockwise from north (a terrain's aspect): a cyclic colour
+        map over 0-360.
     """
     tif_path, png_path = str(tif_path), Path(png_path)
     categorical = categorical_bits is not None
@@ -263,22 +292,71 @@ def write_quicklook(tif_path: str | os.PathLike, png_path: str | os.PathLike, *,
         _categorical(ax, data, extent, bits=categorical_bits)
     elif counts is not None:
         _counts(ax, fig, data, extent, bar_label=f"{label} [{units}]" if label else units, most=int(counts))
+    elif cyclic:
+        _cyclic(ax, fig, data, extent, bar_label=f"{label} [{units}]" if label else units)
     else:
         _continuous(ax, fig, data, extent, bar_label=f"{label} [{units}]" if label else units,
                     diverging=diverging, positive=positive)
     if zones is not None and len(zones):
         _draw_zones(ax, zones, crs, scale, extent)
+    _frame(ax, extent, aspect, (bottom, top), xlabel, ylabel)
+    ax.set_title(textwrap.fill(title, 70), fontsize=11)
+    return _save(fig, png_path)
+
+
+def _frame(ax, extent, aspect, lat_range, xlabel, ylabel):
     ax.set_xlim(extent[0], extent[1])
     ax.set_ylim(extent[2], extent[3])
     if math.isnan(aspect):  # geographic: a degree of longitude is shorter than one of latitude
-        aspect = 1.0 / max(math.cos(math.radians((bottom + top) / 2)), 0.05)
+        aspect = 1.0 / max(math.cos(math.radians(sum(lat_range) / 2)), 0.05)
     ax.set_aspect(aspect)
     ax.ticklabel_format(useOffset=False, style="plain")
     ax.set_xlabel(xlabel, fontsize=9)
     ax.set_ylabel(ylabel, fontsize=9)
     ax.tick_params(labelsize=8)
-    ax.set_title(textwrap.fill(title, 70), fontsize=11)
 
+
+def _save(fig, png_path: Path) -> Path:
     with atomic_output(png_path) as tmp:
         fig.savefig(tmp, format="png", dpi=DPI, metadata={"Software": f"radledger {__version__}"})
     return png_path
+
+
+def write_side_by_side(left: np.ndarray, right: np.ndarray, png_path: str | os.PathLike, *, bounds, crs,
+                       title: str, titles: tuple[str, str], label: str, units: str,
+                       zones: Zones | None = None) -> Path:
+    """Two maps of one quantity over the same bounds on one colour scale, and their difference.
+
+    ``left`` and ``right`` (2-D, NaN or masked = no value, same shape) cover ``bounds`` (left,
+    bottom, right, top in ``crs``); limits are the 2nd-98th percentiles of both together.  A third
+    panel draws ``right - left`` on a diverging scale centred on zero.
+    """
+    left, right = (np.ma.masked_invalid(np.ma.filled(np.ma.asarray(a, dtype=np.float32), np.nan))
+                   for a in (left, right))
+    scale, xlabel, ylabel, aspect = _axes_frame(crs)
+    extent = (bounds[0] * scale, bounds[2] * scale, bounds[1] * scale, bounds[3] * scale)
+    both = np.concatenate([left.compressed(), right.compressed()])
+    lo, hi = (float(v) for v in np.percentile(both, PERCENTILES)) if both.size else (0.0, 1.0)
+    hi = hi if hi > lo else lo + 1.0
+    diff = right - left
+    spread = float(np.percentile(np.abs(diff.compressed()), PERCENTILES[1])) if diff.count() else 1.0
+    fig = Figure(figsize=(15.0, 4.3), dpi=DPI)
+    FigureCanvasAgg(fig)
+    fig.subplots_adjust(left=0.05, right=0.98, bottom=0.1, top=0.9, wspace=0.28)
+    panels = [(left, titles[0], colors.Normalize(lo, hi), SEQUENTIAL_CMAP, f"{label} [{units}]"),
+              (right, titles[1], colors.Normalize(lo, hi), SEQUENTIAL_CMAP, f"{label} [{units}]"),
+              (diff, "difference (right - left)", colors.TwoSlopeNorm(0.0, -max(spread, 1e-6), max(spread, 1e-6)),
+               "RdBu_r", f"difference [{units}]")]
+    for k, (data, sub, norm, cmap, bar_label) in enumerate(panels):
+        ax = fig.add_subplot(1, 3, k + 1)
+        image = ax.imshow(data, cmap=colormaps[cmap].with_extremes(bad=NAN_COLOUR), norm=norm, extent=extent,
+                          interpolation="nearest", origin="upper")
+        fig.colorbar(image, ax=ax, shrink=0.8, pad=0.02, extend="both").set_label(bar_label, fontsize=8)
+        if zones is not None and len(zones):
+            _draw_zones(ax, zones, crs, scale, extent)
+        _frame(ax, extent, aspect, (bounds[1], bounds[3]), xlabel, ylabel)
+        ax.set_title(textwrap.fill(sub, 45), fontsize=9)
+    fig.suptitle(textwrap.fill(title, 120), fontsize=11, y=0.985)
+    fig.text(0.01, 0.01, "colour limits: 2nd-98th percentile of both maps (difference: 98th percentile of its size); "
+             "grey = no value", fontsize=7, color="0.35")
+    return _save(fig, Path(png_path))

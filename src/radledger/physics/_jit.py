@@ -25,13 +25,21 @@ class _Lazy:
         return self.compiled(*args, **kwargs)
 
 
-def _materialise(namespace: dict) -> None:
+def _materialise(namespace: dict, seen: set | None = None) -> None:
+    """Compile every marked function named in ``namespace`` (and in the modules that define them)."""
     import numba
 
+    seen = set() if seen is None else seen
+    if id(namespace) in seen:
+        return
+    seen.add(id(namespace))
     for name, obj in list(namespace.items()):
-        if isinstance(obj, _Lazy) and obj.compiled is None:
-            obj.compiled = numba.njit(**obj.options)(obj.fn)
+        if isinstance(obj, _Lazy):
+            if obj.compiled is None:
+                obj.compiled = numba.njit(**obj.options)(obj.fn)
             namespace[name] = obj.compiled
+            if obj.fn.__globals__ is not namespace:    # imported from another module: compile that one too
+                _materialise(obj.fn.__globals__, seen)
 
 
 def jit(**options):

@@ -22,10 +22,12 @@ from ..model.albedo import AlbedoBetweenScenes
 from ..model.needs import day_needs, scene_needs
 from ..model.params import DayParams, SceneParams
 from ..model.products import DAY_PRODUCTS, SCENE_DAY_PRODUCT, SCENE_PRODUCTS
+from ..model.terrain import TerrainSource
 from .checks import check_sample
 from .provenance import settings_hash, sources_fingerprint
 from .sources import MissingInput, input_source
 from .stations import StationInputs, read_observations
+from .terrain import terrain_layers
 
 __all__ = ["JobBuilder", "DEFAULT_ALBEDO_NOTE", "SAMPLE_CHECKS_PER_INPUT"]
 
@@ -48,6 +50,7 @@ class JobBuilder:
     _checked: dict = field(default_factory=dict)
     _scene_albedo: list = field(default_factory=list)                 # (time, source) of every scene
     _stations: StationInputs | None = None                             # the stations: table, read once
+    _terrain: object = None                                            # TerrainLayers, made once
 
     def __post_init__(self):
         # the net-radiometer table is read here too, so its problems stop the run before anything is written
@@ -56,6 +59,23 @@ class JobBuilder:
                 read_observations(self.cfg, self.grid)
             except RadledgerError as exc:
                 self.problems.append(exc)
+
+    def terrain(self):
+        """The static terrain layers (methods.terrain), or None; the DEM is opened here once."""
+        if self._terrain is None and self.cfg.methods.terrain != "none":
+            try:
+                dem = self.source("elevation", self.cfg.static["elevation"], TimeKind.SCENES, None)
+            except RadledgerError as exc:   # reported with the others; the plan stops
+                self.problems.append(exc)
+                self._terrain = False
+                return None
+            self._terrain = terrain_layers(self.cfg, self.grid, dem)
+        return self._terrain or None
+
+    def _with_terrain(self, srcs: dict, when) -> dict:
+        """The job's sources plus the static terrain layers (files the terrain stage writes first)."""
+        t = self.terrain()
+        return srcs if t is None else {**srcs, "terrain": TerrainSource(t, when)}
 
     # ---- sources ----------------------------------------------------------------------
     def _identity(self, layer: str, spec: InputSpec) -> tuple:
@@ -118,6 +138,10 @@ class JobBuilder:
         near = tuple((t, s) for t, s in self._scene_albedo if abs((t - noon).total_seconds()) <= spec.max_gap * 86400)
         return AlbedoBetweenScenes(day=day, scenes=near, max_gap=spec.max_gap)
 
+    def _terrain_identity(self) -> str:
+        t = self.terrain()
+        return "" if t is None else t.identity
+
     # ---- jobs -------------------------------------------------------------------------
     def scene_jobs(self, job_class) -> list:
         cfg, methods, out = self.cfg, self.cfg.methods, self.cfg.output.directory
@@ -128,7 +152,8 @@ class JobBuilder:
         for scene in cfg.scenes:
             needs = scene_needs(scene.layers, products=want, sky_emissivity=methods.sky_emissivity,
                                 clouds=methods.clouds, scene_to_day=methods.scene_to_day,
-                                emissivity_constant=cfg.emissivity.constant is not None)
+                                emissivity_constant=cfg.emissivity.constant is not None,
+                                terrain=methods.terrain)
             srcs = self._sources(scene, needs.layers, TimeKind.SCENES, scene.time, f"scene {scene.stamp}")
             if srcs is None:
                 continue
@@ -139,8 +164,10 @@ class JobBuilder:
                                  clear_sky_shortwave=methods.clear_sky_shortwave, emissivity_lut=self.lut,
                                  emissivity_constant=cfg.emissivity.constant, emissivity_unknown=self.unknown,
                                  land_cover_path=cfg.static["land_cover"].path if "land_cover" in cfg.static else "",
-                                 emissivity_table=cfg.emissivity.table or "", scene_to_day=methods.scene_to_day)
+                                 emissivity_table=cfg.emissivity.table or "", scene_to_day=methods.scene_to_day,
+                                 terrain=methods.terrain, terrain_layers=self._terrain_identity())
             h = settings_hash(common, sources_fingerprint(srcs), repr(params), lut_hash)
+            srcs = self._with_terrain(srcs, scene.time)
             outputs = {p: out / "scenes" / f"{p}_{scene.stamp}.tif" for p in want}
             day_output = out / "days" / f"{SCENE_DAY_PRODUCT}_{scene.stamp}.tif" \
                 if methods.scene_to_day != "none" else None
@@ -154,13 +181,15 @@ class JobBuilder:
         want = tuple(p for p in cfg.output.products if p in DAY_PRODUCTS)
         jobs = []
         for day in cfg.days:
-            needs = day_needs(day.layers, products=want)
+            needs = day_needs(day.layers, products=want, terrain=cfg.methods.terrain)
             srcs = self._sources(day, needs.layers, TimeKind.DAYS, day.date, f"day {day.stamp}")
             if srcs is None:
                 continue
             params = DayParams(date=day.date, products=want, needs=needs,
-                               shortwave_daylight_mean=srcs["shortwave_down"].units == "W m-2 daylight")
+                               shortwave_daylight_mean=srcs["shortwave_down"].units == "W m-2 daylight",
+                               terrain=cfg.methods.terrain, terrain_layers=self._terrain_identity())
             h = settings_hash(common, sources_fingerprint(srcs), repr(params))
+            srcs = self._with_terrain(srcs, day.date)
             outputs = {p: out / "days" / f"{p}_{day.stamp}.tif" for p in want}
             notes = () if "albedo" in srcs else (DEFAULT_ALBEDO_NOTE,)
             jobs.append(job_class(TimeKind.DAYS, day.stamp, day.date, srcs, params, outputs, h, notes=notes,

@@ -18,10 +18,10 @@ from ..io.paths import is_remote
 from ..io.rasters import LayerSource
 from ..io.remote import remote_fingerprint
 from ..kinds import TimeKind
-from ..model.products import SCENE_DAY_PRODUCT, Product, product_info
+from ..model.products import SCENE_DAY_PRODUCT, Product, product_info, terrain_product
 
 __all__ = ["file_fingerprint", "sources_fingerprint", "settings_hash", "product_tags", "job_product_tags",
-           "composite_tags"]
+           "composite_tags", "terrain_tags"]
 
 
 def file_fingerprint(path: str, *, fresh: bool = False) -> list:
@@ -100,10 +100,50 @@ def _scene_method(cfg: Config) -> str:
     m = cfg.methods
     return (f"Rn = (1 - albedo) Rs - eps_s (sigma Ts^4 - Rld); Rld = eps_sky sigma Ta^4; "
             f"sky emissivity {m.sky_emissivity}; clouds {m.clouds}; clear-sky shortwave "
-            f"{m.clear_sky_shortwave}; sigma 5.670374419e-8 (CODATA 2018)")
+            f"{m.clear_sky_shortwave}; sigma 5.670374419e-8 (CODATA 2018)" + _terrain_method(cfg, scenes=True))
 
 
 DAY_METHOD = "FAO-56 (Allen et al. 1998) eqs 21, 37, 38, 39, 40; 24-hour total"
+
+_TERRAIN_TEXT = {
+    "slope": "slope and aspect Horn (1981); sky-view factor (1 + cos slope) / 2",
+    "shading": "slope and aspect Horn (1981); cast shadows and sky-view factor from 36 horizon angles "
+               "(Dozier & Frew 1990)",
+}
+
+
+def _terrain_method(cfg: Config, *, scenes: bool) -> str:
+    """What methods.terrain adds to a product's method tag ("" for level ground)."""
+    t = cfg.methods.terrain
+    if t == "none":
+        return ""
+    if scenes:
+        return (f"; terrain {t}: Rs on the slope = beam cos(incidence) (NREL SPA sun) + diffuse V + albedo Rs "
+                f"(1 - V), beam/diffuse by {cfg.methods.diffuse_fraction} (Erbs, Klein & Duffie 1982); "
+                f"Rld = V Rld_sky + (1 - V) eps_s sigma Ts^4 (Pluess & Ohmura 1997, terrain at the pixel's "
+                f"own Ts); {_TERRAIN_TEXT[t]}")
+    return (f"; terrain {t}: Rs on the slope = Rs x daily clear-sky ratio slope/flat (ASCE-EWRI 2005 "
+            f"App. D, 5-minute steps); Rs/Rso of eq. 39 on flat ground; {_TERRAIN_TEXT[t]}")
+
+
+def terrain_tags(cfg: Config, name: str, *, settings_hash: str, dem: str, halo: int, relief: float
+                 ) -> dict[str, str]:
+    """Tags of a static terrain layer (``slope``, ``aspect``, ``sky_view_factor``, ``horizon_AAA``)."""
+    method = {"slope": "Horn (1981) weighted 3 x 3 differences",
+              "aspect": "Horn (1981) weighted 3 x 3 differences; downslope direction, clockwise from north",
+              "sky_view_factor": "Dozier & Frew (1990) from 36 horizon angles and the pixel's slope"
+              if cfg.methods.terrain == "shading" else "(1 + cos slope) / 2 of a plane (Liu & Jordan 1963)"}
+    extra = {"halo_pixels": str(halo), "relief_m": f"{relief:.1f}"}
+    long_name = None
+    if name.startswith("horizon_"):
+        azimuth = int(name.split("_")[1])
+        method[name] = (f"largest elevation angle of the DEM along a ray toward {azimuth} deg (Dozier & Frew "
+                        f"1990), up to {halo} pixels away")
+        long_name = f"horizon elevation angle toward azimuth {azimuth} deg (clockwise from north)"
+        extra["azimuth"] = str(azimuth)
+    return product_tags(terrain_product(name), quantity=name, long_name=long_name, method=method[name], time="",
+                        time_kind="terrain", inputs=f"elevation={dem}", title=cfg.title,
+                        settings_hash=settings_hash, extra=extra)
 
 
 def job_product_tags(cfg: Config, job, name: str) -> dict[str, str]:
@@ -123,8 +163,8 @@ def job_product_tags(cfg: Config, job, name: str) -> dict[str, str]:
         return product_tags(product, method=_scene_method(cfg), time=job.when.strftime("%Y-%m-%dT%H:%M:%SZ"),
                             time_kind=str(job.kind), extra=extra, **common)
     extra = {"notes": " | ".join(job.notes)} if job.notes else None
-    return product_tags(product, method=DAY_METHOD, time=job.when.isoformat(), time_kind=str(job.kind),
-                        extra=extra, **common)
+    return product_tags(product, method=DAY_METHOD + _terrain_method(cfg, scenes=False), time=job.when.isoformat(),
+                        time_kind=str(job.kind), extra=extra, **common)
 
 
 def composite_tags(cfg: Config, comp: CompositeSpec, statistic: str, members: list, settings_hash: str
