@@ -176,6 +176,20 @@ class TargetGrid:
         coefficients = ",".join(float(v).hex() for v in (t.a, t.b, t.c, t.d, t.e, t.f))
         return f"{self.crs.to_wkt()}|{coefficients}|{self.width}x{self.height}"
 
+    def transformer_to(self, crs):
+        """A pyproj transformer from the grid's CRS to ``crs`` (x/y order), made once per CRS.
+
+        Making one costs milliseconds (a PROJ database look-up), more than transforming a chunk's
+        lattice; pyproj transformers may be shared between threads.
+        """
+        from pyproj import Transformer
+
+        key = CRS.from_user_input(crs).to_wkt()
+        cache = self.__dict__.setdefault("_transformers", {})
+        if key not in cache:
+            cache[key] = Transformer.from_crs(self.crs, crs, always_xy=True)
+        return cache[key]
+
     @cached_property
     def _to_lonlat(self):
         from pyproj import Transformer

@@ -232,7 +232,7 @@ def _product_files(plan: Plan, job: Job, todo: dict, engine: Engine) -> list[Pro
         info = target_product(job, n)
         files.append(ProductFile(final=path, grid=plan.grid, dtype=info.dtype,
                                  tags=job_product_tags(plan.cfg, job, n), band_description=info.long_name,
-                                 compression=plan.cfg.output.compression, in_task=in_task,
+                                 compression=plan.cfg.output.compression, in_task=in_task, block=block,
                                  nodata=info.nodata, categorical=info.is_flags))
     return files
 

@@ -104,8 +104,9 @@ class WindowSink:
     """
 
     def __init__(self, path: str, lock, dtype: str, *, final: str | None = None, nodata: float = float("nan"),
-                 need: int = 0):
+                 need: int = 0, tile: int = TILE):
         self.path, self.lock, self.dtype = path, lock, dtype
+        self.tile = tile              # the file's tile edge [pixel]
         self.final = final or path
         self.nodata = nodata
         self.need = need              # bytes the file grows to (for a disk-full message)
@@ -145,9 +146,10 @@ class WindowSink:
     def _note(self, block: np.ndarray, r0: int, c0: int) -> None:
         """Remember the tiles this block put data into (nodata-only tiles may stay sparse)."""
         h, w = block.shape
-        for tr in range(r0 // TILE, (r0 + h - 1) // TILE + 1):
-            for tc in range(c0 // TILE, (c0 + w - 1) // TILE + 1):
-                sub = block[max(tr * TILE - r0, 0):(tr + 1) * TILE - r0, max(tc * TILE - c0, 0):(tc + 1) * TILE - c0]
+        t = self.tile
+        for tr in range(r0 // t, (r0 + h - 1) // t + 1):
+            for tc in range(c0 // t, (c0 + w - 1) // t + 1):
+                sub = block[max(tr * t - r0, 0):(tr + 1) * t - r0, max(tc * t - c0, 0):(tc + 1) * t - c0]
                 valid = np.isfinite(sub) if np.isnan(self.nodata) else sub != self.nodata
                 if valid.any():
                     self.touched.add((tr, tc))
@@ -171,6 +173,7 @@ class ProductFile:
     in_task: tuple[int, ...] = ()
     nodata: float = float("nan")  # NaN for float products; a declared value for integer (flag) ones
     categorical: bool = False     # overviews by nearest pixel (bit flags), not by averaging
+    block: int = TILE             # edge of the blocks the tasks write [pixel] (the intermediates' tiles)
 
     def __post_init__(self):
         self.final = Path(self.final)
@@ -191,10 +194,22 @@ class ProductFile:
         """Bytes of the largest temporary (the uncompressed intermediate)."""
         return self.grid.width * self.grid.height * np.dtype(self.dtype).itemsize
 
-    def _create(self, path: str, width: int, height: int, transform, keep_open: bool, tags=None):
+    def tile_for(self, factor: int) -> int:
+        """Tile edge of the intermediate at overview ``factor``: the tasks' block at that level.
+
+        A task then writes whole tiles, which GDAL stores at once; a part of a tile would wait in
+        GDAL's memory for the rest (per open file: this dominated a season's memory).
+        """
+        edge, whole = self.block // factor, self.block % factor == 0
+        if whole and edge % 16 == 0:        # a GeoTIFF tile edge is a multiple of 16
+            return edge
+        return 16 if whole and edge < 16 else TILE
+
+    def _create(self, path: str, width: int, height: int, transform, keep_open: bool, tags=None, tile: int = TILE):
         with gdal_failures(path), gdal_env():
             ds = rasterio.open(path, "w", width=width, height=height, count=1, dtype=self.dtype,
-                               crs=self.grid.crs, transform=transform, nodata=self.nodata, **_INTERMEDIATE)
+                               crs=self.grid.crs, transform=transform, nodata=self.nodata,
+                               **{**_INTERMEDIATE, "blockxsize": tile, "blockysize": tile})
         if tags:
             ds.update_tags(**tags)
             ds.set_band_description(1, self.band_description)
@@ -216,10 +231,11 @@ class ProductFile:
         try:
             self.final.parent.mkdir(parents=True, exist_ok=True)
             self._create(self.intermediate, self.grid.width, self.grid.height, self.grid.transform, keep_open,
-                         self.tags)
+                         self.tags, tile=self.tile_for(1))
             for f in self.in_task:
                 h, w = level_shape(self.grid.height, self.grid.width, f)
-                self._create(self.level_files[f], w, h, _scaled(self.grid.transform, f), keep_open)
+                self._create(self.level_files[f], w, h, _scaled(self.grid.transform, f), keep_open,
+                             tile=self.tile_for(f))
         except _WRITE_ERRORS as exc:
             raise write_failure(self.final, exc, need=self.need) from None
 
@@ -227,7 +243,8 @@ class ProductFile:
         path = self.intermediate if factor == 1 else self.level_files[factor]
         lock = lock if lock is not None else self._lock
         self._sink_locks[path] = lock
-        sink = WindowSink(path, lock, self.dtype, final=str(self.final), nodata=self.nodata, need=self.need)
+        sink = WindowSink(path, lock, self.dtype, final=str(self.final), nodata=self.nodata, need=self.need,
+                          tile=self.tile_for(factor))
         self._sinks.append(sink)
         return sink
 

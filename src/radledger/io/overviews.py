@@ -34,17 +34,34 @@ def level_shape(h: int, w: int, f: int) -> tuple[int, int]:
     return -(-h // f), -(-w // f)
 
 
-def _halve(s: np.ndarray, n: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Sums and counts of 2 x 2 cells (a ragged last row/column counts what it has)."""
+def _halve(s: np.ndarray, n: np.ndarray | None, cells: int = 1) -> tuple[np.ndarray, np.ndarray | None]:
+    """Sums and counts of 2 x 2 cells (a ragged last row/column counts what it has).
+
+    ``n`` None: every cell holds the same count, ``cells`` (no value missing, even sides so far),
+    so the counts need no arrays.  The four quarters are added as strided views (several times faster than a
+    reduction over reshaped axes).
+    """
     h, w = s.shape
     if h % 2 or w % 2:   # pad to even with empty cells
+        if n is None:
+            n = np.full(s.shape, cells, np.int32)
         s = np.pad(s, ((0, h % 2), (0, w % 2)))
         n = np.pad(n, ((0, h % 2), (0, w % 2)))
-    hh, ww = s.shape[0] // 2, s.shape[1] // 2
-    return s.reshape(hh, 2, ww, 2).sum(axis=(1, 3)), n.reshape(hh, 2, ww, 2).sum(axis=(1, 3))
+    out = s[0::2, 0::2] + s[1::2, 0::2]
+    out += s[0::2, 1::2]
+    out += s[1::2, 1::2]
+    if n is None:
+        return out, None
+    m = n[0::2, 0::2] + n[1::2, 0::2]
+    m += n[0::2, 1::2]
+    m += n[1::2, 1::2]
+    return out, m
 
 
-def _mean_of(s: np.ndarray, n: np.ndarray) -> np.ndarray:
+def _mean_of(s: np.ndarray, n: np.ndarray | None, cells: int) -> np.ndarray:
+    """Mean of the sums ``s``: over the counts ``n``, or over ``cells`` values each (``n`` None)."""
+    if n is None:
+        return (s * (1.0 / cells)).astype(np.float32)
     with np.errstate(invalid="ignore", divide="ignore"):
         return np.where(n > 0, s / np.maximum(n, 1), np.nan).astype(np.float32)
 
@@ -68,13 +85,16 @@ def mean_pyramid(block: np.ndarray, factors) -> tuple[dict[int, np.ndarray], tup
         lo, hi, tot = float(vals.min()), float(vals.max()), float(vals.sum(dtype=np.float64))
     else:
         lo, hi, tot = float("inf"), float("-inf"), 0.0
-    s, n = _halve(np.where(valid, a, np.float32(0)).astype(np.float64), valid.astype(np.int32))
+    if valid.all():      # nothing missing: constant counts
+        s, n = _halve(a.astype(np.float64), None)
+    else:
+        s, n = _halve(np.where(valid, a, np.float32(0)).astype(np.float64), valid.astype(np.int32))
     out, f = {}, 2
     for target in factors:
         while f < target:
-            s, n = _halve(s, n)
+            s, n = _halve(s, n, f * f)
             f *= 2
-        out[target] = _mean_of(s, n)
+        out[target] = _mean_of(s, n, f * f)
     return out, (lo, hi, tot, cnt)
 
 

@@ -16,7 +16,6 @@ from __future__ import annotations
 
 import numpy as np
 from affine import Affine
-from pyproj import Transformer
 from rasterio.crs import CRS
 from rasterio.windows import Window
 
@@ -37,7 +36,7 @@ class WindowWarp:
         rows, cols = lattice.rows, lattice.cols
         x, y = lattice.xy()
         if CRS.from_user_input(src_crs) != grid.crs:
-            x, y = Transformer.from_crs(grid.crs, src_crs, always_xy=True).transform(x, y)
+            x, y = grid.transformer_to(src_crs).transform(x, y)
         inv = ~src_transform
         if CRS.from_user_input(src_crs).is_geographic and src_transform.c >= 0 and np.nanmax(x) < 0:
             x = x + 360.0          # a 0..360 longitude source, a target west of Greenwich
@@ -45,6 +44,9 @@ class WindowWarp:
         self.col = lattice.spread(col_f, np.float32)   # source pixel coordinates of every pixel centre
         self.row = lattice.spread(row_f, np.float32)
         self.src_shape = src_shape
+        sh, sw = src_shape
+        # GDAL: a target pixel whose centre falls outside the source gets no value
+        self.inside = (self.row >= 0) & (self.row <= sh) & (self.col >= 0) & (self.col <= sw)
         dc = (np.abs(np.diff(col_f, axis=1)) / np.diff(cols)[None, :]).max() if len(cols) > 1 else 0.0
         dr = (np.abs(np.diff(row_f, axis=0)) / np.diff(rows)[:, None]).max() if len(rows) > 1 else 0.0
         # upsampling (one target pixel moves less than one source pixel): the 4-neighbour kernel is GDAL's
@@ -64,65 +66,71 @@ class WindowWarp:
     def resample(self, slab: np.ndarray, r0: int, c0: int, method: str) -> np.ndarray:
         """The window from ``slab`` (source rows r0.., columns c0..; NaN = missing), float32."""
         slab = np.asarray(slab, dtype=np.float32)
+        hs, ws = slab.shape
         plan = self._plan(slab.shape, r0, c0, method)
-        flat = np.concatenate([slab.ravel(), np.full(1, np.nan, np.float32)])   # the last cell: "off the slab"
+        # the slab inside a border of missing cells: a neighbour off the slab (off the source) is missing
+        padded = np.full((hs + 2, ws + 2), np.nan, np.float32)
+        padded[1:-1, 1:-1] = slab
+        flat = padded.ravel()
+        i00 = plan["i00"]
         if method == "nearest":
-            return flat[plan["i00"]].reshape(self.shape)
+            out = np.take(flat, i00)
+            out[~self.inside] = np.nan
+            return out
         fx, fy = plan["fx"], plan["fy"]
-        a, b, c, d = (np.take(flat, plan[k]) for k in ("i00", "i01", "i10", "i11"))
+        row = ws + 2
+        # the four neighbours by gathering from shifted views (no index arrays per date)
+        a, b, c, d = (np.take(flat[k:], i00) for k in (0, 1, row, row + 1))
         top = a + (b - a) * fx
         out = top + ((c + (d - c) * fx) - top) * fy
-        redo = plan["edge"] if not np.isnan(slab).any() else np.isnan(out) | plan["edge"]
+        redo = np.isnan(out)
+        redo &= self.inside
         if redo.any():   # a missing or off-source neighbour: GDAL drops it and renormalises the rest
             k = np.flatnonzero(redo.ravel())
+            base = i00.ravel()[k]
             total = np.zeros(k.size, np.float32)
             weight = np.zeros(k.size, np.float32)
             fxk, fyk = fx.ravel()[k], fy.ravel()[k]
-            for name, wgt in (("i00", (1 - fyk) * (1 - fxk)), ("i01", (1 - fyk) * fxk),
-                              ("i10", fyk * (1 - fxk)), ("i11", fyk * fxk)):
-                v = flat[plan[name].ravel()[k]]
+            for shift, wgt in ((0, (1 - fyk) * (1 - fxk)), (1, (1 - fyk) * fxk),
+                               (row, fyk * (1 - fxk)), (row + 1, fyk * fxk)):
+                v = flat[base + shift]
                 ok = ~np.isnan(v)
                 total += np.where(ok, v * wgt, np.float32(0))
                 weight += np.where(ok, wgt, np.float32(0))
             with np.errstate(invalid="ignore", divide="ignore"):
                 out.ravel()[k] = np.where(weight >= 0.5, total / weight, np.nan)
-        out[~plan["inside"]] = np.nan
+        out[~self.inside] = np.nan
         return out
 
     def _plan(self, shape, r0: int, c0: int, method: str) -> dict:
-        """Flat indices of each pixel's neighbours in a slab of ``shape`` at (r0, c0), and the weights.
+        """Each pixel's first neighbour in a slab of ``shape`` at (r0, c0) with a border of one cell
+        (flat index), and its weights.
 
         The same for every date a task reads (the slab's place follows from the geometry), so it is
-        computed once; a neighbour off the slab points at an extra NaN cell.
+        computed once.  Only the first neighbour is stored: the others are 1, a row and a row + 1
+        cells further on (the border keeps every one of them on the padded slab).
         """
         key = (tuple(shape), r0, c0, method)
         if self._plans.get("key") == key:
             return self._plans
         hs, ws = shape
-        sh, sw = self.src_shape
-        inside = (self.row >= 0) & (self.row <= sh) & (self.col >= 0) & (self.col <= sw)
-        off = hs * ws      # index of the NaN cell
-
-        def index(i, j):
-            ok = (i >= 0) & (i < hs) & (j >= 0) & (j < ws)
-            return np.where(ok, i * ws + j, off).astype(np.int32), ok
-
         if method == "nearest":
-            i00, _ = index(np.floor(self.row).astype(np.int64) - r0, np.floor(self.col).astype(np.int64) - c0)
-            self._plans = {"key": key, "i00": np.where(inside, i00, off).astype(np.int32)}
-            return self._plans
-        y = self.row - np.float32(0.5) - r0
-        x = self.col - np.float32(0.5) - c0
-        i0 = np.floor(y).astype(np.int64)
-        j0 = np.floor(x).astype(np.int64)
-        plan = {"key": key, "fy": (y - i0).astype(np.float32), "fx": (x - j0).astype(np.float32), "inside": inside}
-        edge = np.zeros(self.shape, bool)
-        for name, di, dj in (("i00", 0, 0), ("i01", 0, 1), ("i10", 1, 0), ("i11", 1, 1)):
-            plan[name], ok = index(i0 + di, j0 + dj)
-            edge |= ~ok
-        plan["edge"] = edge & inside
-        self._plans = plan
-        return plan
+            i = np.clip(np.floor(self.row) - r0, -1, hs).astype(np.int32)
+            j = np.clip(np.floor(self.col) - c0, -1, ws).astype(np.int32)
+        else:
+            y = self.row - np.float32(0.5 + r0)
+            x = self.col - np.float32(0.5 + c0)
+            i = np.clip(np.floor(y), -1, hs - 1).astype(np.int32)
+            j = np.clip(np.floor(x), -1, ws - 1).astype(np.int32)
+            fy, fx = y - i.astype(np.float32), x - j.astype(np.float32)
+            np.clip(fy, 0, 1, out=fy)     # a pixel beyond the border row: its weight on that border
+            np.clip(fx, 0, 1, out=fx)
+        i += 1
+        j += 1
+        i *= ws + 2
+        i += j
+        self._plans = {"key": key, "i00": i} if method == "nearest" else {"key": key, "i00": i, "fx": fx, "fy": fy}
+        return self._plans
 
 
 def warp_for(cache: dict | None, grid: TargetGrid, window: Window, src_crs, src_transform: Affine,

@@ -15,7 +15,7 @@ from ..outputs.composites import composite
 from ..planning.plan import Plan
 from ..planning.provenance import composite_tags, settings_hash
 from .products import composite_paths, net_radiation_files
-from .streams import CompositeStream, write_streamed
+from .streams import CompositeStream, streamed_overviews, write_streamed
 
 __all__ = ["run_composite"]
 
@@ -63,18 +63,20 @@ def run_composite(plan: Plan, comp: CompositeSpec, engine: Engine, *, overwrite:
     return written, skipped
 
 
-def _files(plan: Plan, comp: CompositeSpec, todo: dict, members: list, h: str) -> dict:
+def _files(plan: Plan, comp: CompositeSpec, todo: dict, members: list, h: str, in_task: tuple = ()) -> dict:
     out = {}
     for s, path in todo.items():
         tags = composite_tags(plan.cfg, comp, s, [p for _, p in members], h)
         out[s] = ProductFile(final=path, grid=plan.grid, dtype="float32", tags=tags,
-                             band_description=tags["long_name"], compression=plan.cfg.output.compression)
+                             band_description=tags["long_name"], compression=plan.cfg.output.compression,
+                             in_task=in_task, block=plan.grid.chunk)
     return out
 
 
 def _from_stream(plan: Plan, comp: CompositeSpec, engine: Engine, stream: CompositeStream, todo: dict,
                  members: list, h: str) -> list[Path]:
-    files = _files(plan, comp, todo, members, h)
+    # the overview levels come from the statistics tasks too: the COG pass then only compresses
+    files = _files(plan, comp, todo, members, h, in_task=streamed_overviews(plan.grid))
     try:
         for f in files.values():
             f.create(keep_open=not engine.distributed)

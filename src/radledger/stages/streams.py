@@ -19,6 +19,7 @@ from ..config import CompositeSpec
 from ..execution.engine import Engine
 from ..io.accumulators import Accumulator
 from ..io.cog import is_current
+from ..io.overviews import mean_pyramid, overview_factors
 from ..kinds import TimeKind
 from ..planning.plan import Job, Plan
 
@@ -113,18 +114,32 @@ def finish_statistic(statistic: str, sums: dict[str, np.ndarray], *, min_count: 
 
 
 def _statistics_task(stream: CompositeStream, window, statistics: tuple, sinks: dict) -> None:
+    """One chunk of every statistic, with its blocks of the in-task overview levels."""
     sums = {f: stream.acc.read(f, window) for f in stream.acc.fields}
     r0, c0 = int(window.row_off), int(window.col_off)
     h, w = int(window.height), int(window.width)
     for statistic in statistics:
         value = finish_statistic(statistic, sums, min_count=stream.comp.min_count,
                                  window_days=stream.comp.window_days)
-        sinks[statistic][slice(r0, r0 + h), slice(c0, c0 + w)] = value
+        full, levels = sinks[statistic]
+        full[slice(r0, r0 + h), slice(c0, c0 + w)] = value
+        if levels:
+            blocks, _ = mean_pyramid(value, tuple(levels))
+            for f, level in levels.items():
+                bh, bw = blocks[f].shape
+                level[slice(r0 // f, r0 // f + bh), slice(c0 // f, c0 // f + bw)] = blocks[f]
+
+
+def streamed_overviews(grid) -> tuple[int, ...]:
+    """The overview factors the statistics tasks write themselves (those dividing the chunk)."""
+    return tuple(f for f in overview_factors(grid.width, grid.height) if grid.chunk % f == 0)
 
 
 def write_streamed(plan: Plan, stream: CompositeStream, engine: Engine, files: dict) -> None:
     """Every statistic of ``files`` (statistic -> ProductFile, created) from the stream's running sums."""
-    sinks = {s: f.sink(engine.lock(f.intermediate)) for s, f in files.items()}
+    sinks = {s: (f.sink(engine.lock(f.intermediate)),
+                 {fac: f.sink(engine.lock(f.level_files[fac]), factor=fac) for fac in f.in_task})
+             for s, f in files.items()}
     name = f"radledger-composite-{stream.comp.name}-{id(stream)}"
     dsk = {(name, k): (_statistics_task, stream, win, tuple(files), sinks)
            for k, win in enumerate(plan.grid.windows())}
