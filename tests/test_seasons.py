@@ -5,12 +5,15 @@ tests (reference_fao56.py, test_methods_matrix.py), on weather warped by GDAL's 
 
 from __future__ import annotations
 
+import csv
 import datetime as dt
+import json
 
 import numpy as np
 import pandas as pd
 import pytest
 import rasterio
+import shapely
 import xarray as xr
 import yaml
 from affine import Affine
@@ -352,3 +355,63 @@ def test_season_composites_streamed_and_read_back_equal_numpy_over_the_days(tmp_
         (tmp_path / "out" / "days" / "net_radiation_20260603.tif").unlink()
         for p in (tmp_path / "out" / "composites").glob("*.tif"):
             p.unlink()
+
+
+def _zones_file(folder):
+    """Two invented sub-basins in the grid's CRS (GeoJSON with a named CRS member); no vertex or edge
+    passes through a pixel centre, so the pixel-centre rule has no ties."""
+    x0, y0 = X0, Y0
+    rings = {"upper": [(x0 + 91.3, y0 - 61.7), (x0 + 903.1, y0 - 97.2), (x0 + 702.4, y0 - 801.9),
+                       (x0 + 91.3, y0 - 61.7)],
+             "lower": [(x0 + 601, y0 - 831), (x0 + 1801, y0 - 831), (x0 + 1801, y0 - 1401), (x0 + 601, y0 - 1401),
+                       (x0 + 601, y0 - 831)]}
+    feats = [{"type": "Feature", "properties": {"basin": k},
+              "geometry": {"type": "Polygon", "coordinates": [[list(p) for p in r]]}} for k, r in rings.items()]
+    gj = {"type": "FeatureCollection", "crs": {"type": "name", "properties": {"name": "urn:ogc:def:crs:EPSG::32611"}},
+          "features": feats}
+    (folder / "basins.geojson").write_text(json.dumps(gj))
+    return {k: shapely.Polygon(r) for k, r in rings.items()}
+
+
+def test_a_season_gets_one_long_zone_table_and_a_rerun_redoes_only_tables_whose_sources_changed(tmp_path):
+    _static(tmp_path)
+    polygons = _zones_file(tmp_path)
+    name, _, _, _ = _write_stacks(tmp_path)
+    day = {"dates": {"start": "2026-06-01", "end": "2026-06-05"},
+           "shortwave_down": {"path": name, "variable": "rsds"},
+           "air_temperature_max": {"path": name, "variable": "tmax"},
+           "air_temperature_min": {"path": name, "variable": "tmin"},
+           "vapour_pressure": {"path": name, "variable": "vp"}}
+    cfg = _config(tmp_path, days=[day], zones={"path": "basins.geojson", "id": "basin"})
+    run_config(load_config(cfg))
+    zones = tmp_path / "out" / "zones"
+    with open(zones / "net_radiation_days.csv", newline="") as fh:
+        rows = list(csv.DictReader(fh))
+    assert list(rows[0]) == ["date", "basin", "mean", "min", "max", "std", "count", "coverage", "area_km2", "units"]
+    assert [r["date"] for r in rows] == [f"{d:%Y-%m-%d}" for d in DAYS[:5] for _ in range(2)]
+    assert {r["units"] for r in rows} == {"MJ m-2 day-1"}
+    # each row is the day's own table, and its mean the NumPy mean of the pixels whose centres lie
+    # inside the polygon (shapely; the 'centre' weighting)
+    ys, xs = np.mgrid[0:SHAPE[0], 0:SHAPE[1]]
+    cx, cy = X0 + RES * (xs + 0.5), Y0 - RES * (ys + 0.5)
+    for i, d in enumerate(DAYS[:5]):
+        with open(zones / f"net_radiation_{d:%Y%m%d}.csv", newline="") as fh:
+            daily = {r["basin"]: r for r in csv.DictReader(fh)}
+        values = read(tmp_path / "out" / "days" / f"net_radiation_{d:%Y%m%d}.tif")
+        for r in rows[2 * i:2 * i + 2]:
+            assert {k: v for k, v in r.items() if k not in ("date", "units")} == daily[r["basin"]]
+            inside = shapely.contains_xy(polygons[r["basin"]], cx, cy)
+            assert float(r["mean"]) == pytest.approx(np.nanmean(values[inside]), rel=1e-5)
+    # an unchanged rerun keeps every table (not rewritten), a redone day redoes its table and the long one
+    before = {p.name: p.stat().st_mtime_ns for p in zones.glob("*.csv")}
+    report = run_config(load_config(cfg))
+    assert not [p for p in report.written if p.parent == zones]
+    assert {p.name: p.stat().st_mtime_ns for p in zones.glob("*.csv")} == before
+    # a lost day table is made again (from the same product: the long table stays as it is)
+    (zones / "net_radiation_20260603.csv").unlink()
+    report = run_config(load_config(cfg))
+    assert [p.name for p in report.written if p.parent == zones] == ["net_radiation_20260603.csv"]
+    # other zones (here: another weighting) redo every table
+    cfg.write_text(cfg.read_text().replace("id: basin", "id: basin\n  weighting: coverage"))
+    report = run_config(load_config(cfg))
+    assert len([p for p in report.written if p.parent == zones]) == 6

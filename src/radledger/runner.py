@@ -163,7 +163,7 @@ def _stages(plan: Plan, engine: Engine, report: RunReport, overwrite: bool) -> N
                                                      stream=streams.get(comp.name)))
     if cfg.zones is not None:
         from .stages.zones import run_zones
-        add("zones", run_zones(plan, engine))
+        add("zones", *run_zones(plan, engine, overwrite=overwrite))
     if cfg.output.netcdf:
         from .stages.netcdf import run_netcdf
         add("netcdf", run_netcdf(plan))

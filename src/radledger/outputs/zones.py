@@ -44,7 +44,8 @@ from ..io.vectors import Zones
 from .stats import merge_moments
 from .zonal_exact import ZoneMoments, coverage_fractions, fold_window, merge_zone_moments, polygon_area_km2
 
-__all__ = ["zone_labels", "zone_statistics", "zone_statistics_coverage", "zone_areas", "zones_off_the_grid",
+__all__ = ["zone_labels", "zone_statistics", "zone_statistics_coverage", "zone_statistics_many",
+           "zone_statistics_coverage_many", "zone_areas", "zones_off_the_grid",
            "write_zone_csv", "ZONE_COLUMNS"]
 
 ZONE_COLUMNS = ("mean", "min", "max", "std", "count", "coverage", "area_km2")  # after the id column
@@ -206,21 +207,35 @@ def zone_statistics(values, labels, zones: Zones, grid: TargetGrid, *, compute=d
         and ``area_km2`` (the polygon's area, see :func:`zone_areas`, parts off the
         grid included [km2]).  A zone without valid pixels has NaN mean/min/max/std.
     """
-    _check_shapes(values, grid, labels)
-    values = da.asarray(values).rechunk(grid.chunks)
+    return zone_statistics_many([values], labels, zones, grid, compute=compute)[0]
+
+
+def zone_statistics_many(values_list: Sequence, labels, zones: Zones, grid: TargetGrid, *,
+                         compute=dask.compute) -> list[list[dict]]:
+    """:func:`zone_statistics` of several products in one computation (each chunk's labels burnt once)."""
+    for values in values_list:
+        _check_shapes(values, grid, labels)
     labels = da.asarray(labels).rechunk(grid.chunks)
     n_labels = len(zones) + 1
-    blocks = [dask.delayed(_block_summary, pure=True)(v, lab, n_labels)
-              for v, lab in zip(values.to_delayed().ravel(), labels.to_delayed().ravel())]
-    (summary,) = compute(_tree(blocks, _merge_summaries))
+    label_blocks = labels.to_delayed().ravel()
+    trees = []
+    for values in values_list:
+        values = da.asarray(values).rechunk(grid.chunks)
+        blocks = [dask.delayed(_block_summary, pure=True)(v, lab, n_labels)
+                  for v, lab in zip(values.to_delayed().ravel(), label_blocks)]
+        trees.append(_tree(blocks, _merge_summaries))
+    summaries = compute(*trees)
     total, on_grid = zone_areas(zones, grid)
-    rows = []
-    for i in range(len(zones)):
-        n, mean, m2, lo, hi, pixels = summary[:, i + 1]
-        inside = on_grid[i] / total[i] if total[i] > 0 else 0.0
-        rows.append(_row(zones, i, count=int(n), mean=mean, lo=lo, hi=hi, std=math.sqrt(m2 / n) if n else 0.0,
-                         coverage=n / pixels * inside if pixels > 0 else 0.0, area=total[i]))
-    return rows
+    out = []
+    for summary in summaries:
+        rows = []
+        for i in range(len(zones)):
+            n, mean, m2, lo, hi, pixels = summary[:, i + 1]
+            inside = on_grid[i] / total[i] if total[i] > 0 else 0.0
+            rows.append(_row(zones, i, count=int(n), mean=mean, lo=lo, hi=hi, std=math.sqrt(m2 / n) if n else 0.0,
+                             coverage=n / pixels * inside if pixels > 0 else 0.0, area=total[i]))
+        out.append(rows)
+    return out
 
 
 # --- coverage weighting (exact pixel fractions) --------------------------------------------
@@ -279,20 +294,33 @@ def zone_statistics_coverage(values, zones: Zones, grid: TargetGrid, *, compute=
         ``coverage`` = covered valid area / the polygon's whole area [1] (parts off the
         grid count as not valid), and ``area_km2`` the polygon's area [km2].
     """
-    _check_shapes(values, grid)
+    return zone_statistics_coverage_many([values], zones, grid, compute=compute)[0]
+
+
+def zone_statistics_coverage_many(values_list: Sequence, zones: Zones, grid: TargetGrid, *,
+                                  compute=dask.compute) -> list[list[dict]]:
+    """:func:`zone_statistics_coverage` of several products in one computation."""
+    for values in values_list:
+        _check_shapes(values, grid)
     crs = CRS.from_user_input(grid.crs.to_wkt())
     if CRS.from_user_input(zones.crs) != crs:
         zones = zones.to_crs(crs)
-    values = da.asarray(values).rechunk(grid.chunks)
     geometries = dask.delayed(_Geometries(zones.geometries), pure=True)
-    blocks = [dask.delayed(_exact_block, pure=True)(v, w, grid, geometries)
-              for v, w in zip(values.to_delayed().ravel(), grid.windows())]
-    ((moments, counts),) = compute(_tree(blocks, _merge_exact))
+    trees = []
+    for values in values_list:
+        values = da.asarray(values).rechunk(grid.chunks)
+        blocks = [dask.delayed(_exact_block, pure=True)(v, w, grid, geometries)
+                  for v, w in zip(values.to_delayed().ravel(), grid.windows())]
+        trees.append(_tree(blocks, _merge_exact))
     total, _ = zone_areas(zones, grid)
-    std = moments.std
-    return [_row(zones, i, count=int(counts[i]), mean=moments.mean[i], lo=moments.min[i], hi=moments.max[i],
-                 std=std[i], coverage=moments.weight[i] / 1e6 / total[i] if total[i] > 0 else 0.0, area=total[i])
-            for i in range(len(zones))]
+    out = []
+    for moments, counts in compute(*trees):
+        std = moments.std
+        out.append([_row(zones, i, count=int(counts[i]), mean=moments.mean[i], lo=moments.min[i],
+                         hi=moments.max[i], std=std[i],
+                         coverage=moments.weight[i] / 1e6 / total[i] if total[i] > 0 else 0.0, area=total[i])
+                    for i in range(len(zones))])
+    return out
 
 
 # --- CSV -----------------------------------------------------------------------------------
