@@ -284,7 +284,9 @@ OUTPUTS = [
       ("unknown value 'net_radation'", "did you mean 'net_radiation'", "sky_emissivity"), id="products-typo"),
     P(SCENE, {"output.compression": "gzip"}, "output.compression", ("'gzip'", "zstd", "deflate", "lzw"),
       id="compression"),
-    P(SCENE, {"output.netcdf": "maybe"}, "output.netcdf", ("true or false", "maybe"), id="netcdf"),
+    P(SCENE, {"output.netcdf": "maybe"}, "output.netcdf", ("'maybe' not in output.products", "net_radiation"),
+      id="netcdf"),
+    P(SCENE, {"output.netcdf": 3}, "output.netcdf", ("true, false or a list of products",), id="netcdf-number"),
     P(SCENE, {"output.quicklooks": 1}, "output.quicklooks", ("true or false",), id="quicklooks"),
 ]
 
@@ -411,7 +413,7 @@ def test_minimal_config_loads_with_documented_defaults(tmp_path):
     assert c.output.directory == tmp_path.resolve() / "out"
     assert c.output.products == ("net_radiation", "net_shortwave", "net_longwave", "quality")
     assert c.output.compression == "zstd"
-    assert c.output.netcdf is False and c.output.quicklooks is False
+    assert c.output.netcdf == () and c.output.quicklooks is False
     assert c.zones is None and c.days == () and c.composites == ()
     # README: paths are relative to the config file; static layers serve every date
     assert c.scenes[0].layers["albedo"].path == str(tmp_path.resolve() / "albedo.tif")

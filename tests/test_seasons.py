@@ -415,3 +415,48 @@ def test_a_season_gets_one_long_zone_table_and_a_rerun_redoes_only_tables_whose_
     cfg.write_text(cfg.read_text().replace("id: basin", "id: basin\n  weighting: coverage"))
     report = run_config(load_config(cfg))
     assert len([p for p in report.written if p.parent == zones]) == 6
+
+
+def test_netcdf_takes_the_listed_products_and_an_unchanged_rerun_keeps_stacks_and_quicklooks(tmp_path):
+    _static(tmp_path)
+    name, _, _, _ = _write_stacks(tmp_path)
+    day = {"dates": {"start": "2026-06-01", "end": "2026-06-04"},
+           "shortwave_down": {"path": name, "variable": "rsds"},
+           "air_temperature_max": {"path": name, "variable": "tmax"},
+           "air_temperature_min": {"path": name, "variable": "tmin"},
+           "vapour_pressure": {"path": name, "variable": "vp"}}
+    cfg = _config(tmp_path, days=[day])
+    text = yaml.safe_load(cfg.read_text())
+    text["output"].update(netcdf=["net_radiation"], quicklooks=True)
+    cfg.write_text(yaml.safe_dump(text))
+    out = tmp_path / "out"
+    run_config(load_config(cfg))
+    assert sorted(p.name for p in (out / "netcdf").iterdir()) == ["net_radiation_days.nc"]
+    with xr.open_dataset(out / "netcdf" / "net_radiation_days.nc", engine="h5netcdf") as ds:
+        stack = ds["net_radiation"].values
+    days = [read(out / "days" / f"net_radiation_{d:%Y%m%d}.tif") for d in DAYS[:4]]
+    np.testing.assert_array_equal(stack, np.stack(days))
+    made = {p: p.stat().st_mtime_ns for p in [*(out / "netcdf").iterdir(), *(out / "quicklooks").iterdir()]}
+    assert len(made) == 1 + 8                            # the stack; net_radiation and quality PNGs per day
+
+    report = run_config(load_config(cfg))                # unchanged: nothing rewritten, everything kept
+    assert report.written == [] and set(made) <= set(report.skipped)
+    assert {p: p.stat().st_mtime_ns for p in made} == made
+
+    # a lost day is made again: its PNG with it; the stack holds the same product, so it is kept
+    (out / "days" / "net_radiation_20260603.tif").unlink()
+    report = run_config(load_config(cfg))
+    assert sorted(p.name for p in report.written) == ["net_radiation_20260603.png", "net_radiation_20260603.tif"]
+
+    # other weather (a stack input is fingerprinted as one file: every day is redone) redoes the stack
+    with xr.open_dataset(tmp_path / name, engine="h5netcdf") as ds:
+        ds = ds.load()
+    ds["vp"][2] = ds["vp"][2] + 100.0
+    ds.to_netcdf(tmp_path / "new.nc", engine="h5netcdf",
+                 encoding={"tmax": {"dtype": "int16", "scale_factor": 0.01, "add_offset": 20.0, "_FillValue": -32768}})
+    (tmp_path / "new.nc").replace(tmp_path / name)
+    report = run_config(load_config(cfg))
+    assert out / "netcdf" / "net_radiation_days.nc" in report.written
+    with xr.open_dataset(out / "netcdf" / "net_radiation_days.nc", engine="h5netcdf") as ds:
+        np.testing.assert_array_equal(ds["net_radiation"].values[2], read(out / "days" / "net_radiation_20260603.tif"))
+        assert not np.array_equal(ds["net_radiation"].values[2], days[2])

@@ -166,7 +166,7 @@ def _stages(plan: Plan, engine: Engine, report: RunReport, overwrite: bool) -> N
         add("zones", *run_zones(plan, engine, overwrite=overwrite))
     if cfg.output.netcdf:
         from .stages.netcdf import run_netcdf
-        add("netcdf", run_netcdf(plan))
+        add("netcdf", *run_netcdf(plan, overwrite=overwrite))
     if cfg.output.zarr:
         from .stages.zarr import run_zarr
         add("zarr", *run_zarr(plan, engine, overwrite=overwrite))
@@ -175,7 +175,7 @@ def _stages(plan: Plan, engine: Engine, report: RunReport, overwrite: bool) -> N
         add("stac", run_stac(plan))
     if cfg.output.quicklooks:
         from .stages.quicklooks import run_quicklooks
-        add("quicklooks", run_quicklooks(plan, report.paths, overwrite=overwrite))
+        add("quicklooks", *run_quicklooks(plan, report.paths, overwrite=overwrite))
     if cfg.validation is not None:
         from .stages.validation import run_validation
         add("validation", run_validation(plan, engine))

@@ -178,7 +178,7 @@ class OutputSpec:
     directory: Path = Path("out")
     products: tuple[str, ...] = DEFAULT_PRODUCTS
     compression: str = "zstd"
-    netcdf: bool = False
+    netcdf: tuple[str, ...] = ()  # products stacked in DIR/netcdf/ (config: true = all, or a list)
     quicklooks: bool = False
     zarr: bool = False            # DIR/zarr/{scenes|days}.zarr
     stac: bool = False            # DIR/stac/catalog.json

@@ -194,8 +194,24 @@ def output(v, value) -> OutputSpec:
         products=products,
         compression=v.choice(value.get("compression"), "output.compression", COMPRESSIONS,
                                 OutputSpec.compression),
-        netcdf=v.boolean(value.get("netcdf"), "output.netcdf", OutputSpec.netcdf),
+        netcdf=_netcdf_products(v, value.get("netcdf"), products),
         quicklooks=v.boolean(value.get("quicklooks"), "output.quicklooks", OutputSpec.quicklooks),
         zarr=v.boolean(value.get("zarr"), "output.zarr", OutputSpec.zarr),
         stac=v.boolean(value.get("stac"), "output.stac", OutputSpec.stac),
     )
+
+
+def _netcdf_products(v, value, products: tuple[str, ...]) -> tuple[str, ...]:
+    """``output.netcdf``: false (none), true (every product written) or a list of them."""
+    if value is None or isinstance(value, bool):
+        return products if value else ()
+    names = [value] if isinstance(value, str) else value
+    if not isinstance(names, list) or not all(isinstance(n, str) for n in names):
+        v.fail("output.netcdf", "must be true, false or a list of products from output.products")
+        return ()
+    unknown = [n for n in names if n not in products]
+    if unknown:
+        v.fail("output.netcdf", f"{', '.join(map(repr, unknown))} not in output.products "
+                                f"({', '.join(products)}); list products that are written")
+        return ()
+    return tuple(dict.fromkeys(names))

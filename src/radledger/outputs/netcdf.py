@@ -34,7 +34,7 @@ from ..grid import TargetGrid
 from ..io.atomic import atomic_output
 from ..io.lazy import read_product
 
-__all__ = ["write_stack", "TIME_UNITS", "INTEGER_FILL"]
+__all__ = ["write_stack", "read_stack_hash", "TIME_UNITS", "INTEGER_FILL", "COMPRESSION"]
 
 TIME_UNITS = "seconds since 1970-01-01"
 INTEGER_FILL = 255  # _FillValue of uint8 stacks (the quality product's nodata)
@@ -166,3 +166,17 @@ def write_stack(paths: Sequence[str | os.PathLike], times: Sequence, out_path: s
     with atomic_output(out_path) as tmp:
         ds.to_netcdf(tmp, engine="h5netcdf", encoding=encoding, format="NETCDF4")
     return out_path
+
+
+def read_stack_hash(path: str | os.PathLike) -> str | None:
+    """The ``settings_hash`` global attribute of a stack (None when absent or the file unreadable)."""
+    import h5py
+
+    try:
+        with h5py.File(path, "r") as f:
+            value = f.attrs.get("settings_hash")
+    except (OSError, ValueError):
+        return None
+    if isinstance(value, bytes):
+        value = value.decode("utf-8", "replace")
+    return value if isinstance(value, str) else None

@@ -1,4 +1,4 @@
-"""Stage 5: one PNG map per GeoTIFF product (skipping PNGs newer than their product).
+"""Stage 5: one PNG map per GeoTIFF product (keeping PNGs newer than their product and the zones file).
 
 The static terrain layers get one each too (slope, aspect, sky-view factor; not the 36 horizon
 files), and with ``methods.terrain`` each scene with a given shortwave gets
@@ -66,38 +66,69 @@ def _quicklook_args(path: Path) -> dict:
     return dict(args, title=title)
 
 
-def run_quicklooks(plan: Plan, products: list[Path], *, overwrite: bool = False) -> list[Path]:
-    """One PNG per GeoTIFF in ``products``."""
-    zones = None
-    if plan.cfg.zones is not None:
-        zones = read_zones(plan.cfg.zones.path, plan.cfg.zones.id, plan.grid)
+def run_quicklooks(plan: Plan, products: list[Path], *, overwrite: bool = False) -> tuple[list[Path], list[Path]]:
+    """One PNG per GeoTIFF in ``products``; (written, kept): a PNG newer than its product (and
+    than the zones file whose outlines it draws) is kept."""
+    zones_file = plan.cfg.zones.path if plan.cfg.zones is not None else None
+    zones = _Zones(plan)
     (plan.out / "quicklooks").mkdir(parents=True, exist_ok=True)
-    written = []
+    written, kept = [], []
     for path in sorted({p for p in products if p.suffix == ".tif" and not p.stem.startswith("horizon_")}):
         png = plan.out / "quicklooks" / f"{path.stem}.png"
+        if _current(png, (path, zones_file), overwrite):
+            kept.append(png)
+            continue
+        write_quicklook(str(path), str(png), zones=zones.get(), **_quicklook_args(path))
         written.append(png)
-        if not _newer(png, path, overwrite):
-            write_quicklook(str(path), str(png), zones=zones, **_quicklook_args(path))
     if plan.cfg.methods.terrain != "none":
-        written += _terrain_effects(plan, zones, overwrite)
-    return written
+        w, k = _terrain_effects(plan, zones, zones_file, overwrite)
+        written += w
+        kept += k
+    return written, kept
 
 
-def _newer(png: Path, path: Path, overwrite: bool) -> bool:
-    return not overwrite and png.exists() and png.stat().st_mtime_ns >= path.stat().st_mtime_ns
+class _Zones:
+    """The zones to outline, read on first use (an unchanged rerun reads nothing)."""
+
+    def __init__(self, plan: Plan):
+        self.plan = plan
+        self.zones = None
+
+    def get(self):
+        z = self.plan.cfg.zones
+        if z is not None and self.zones is None:
+            self.zones = read_zones(z.path, z.id, self.plan.grid)
+        return self.zones
 
 
-def _terrain_effects(plan: Plan, zones, overwrite: bool) -> list[Path]:
+def _current(png: Path, sources, overwrite: bool) -> bool:
+    """The PNG exists and is newer than each local source file (remote zones: by the product only)."""
+    if overwrite or not png.exists():
+        return False
+    made = png.stat().st_mtime_ns
+    for src in sources:
+        if src is None or "://" in str(src):
+            continue
+        try:
+            if Path(src).stat().st_mtime_ns > made:
+                return False
+        except OSError:
+            continue
+    return True
+
+
+def _terrain_effects(plan: Plan, zones: _Zones, zones_file, overwrite: bool) -> tuple[list[Path], list[Path]]:
     """Level ground vs terrain: each scene's given shortwave beside its ``incident_shortwave``."""
-    written = []
+    written, kept = [], []
     for job in plan.jobs:
         path = job.outputs.get("incident_shortwave") if job.kind is TimeKind.SCENES else None
         if path is None or not path.exists() or "shortwave_down" not in job.sources:
             continue
         png = plan.out / "quicklooks" / f"terrain_effect_{job.label}.png"
-        written.append(png)
-        if _newer(png, path, overwrite):
+        if _current(png, (path, zones_file), overwrite):
+            kept.append(png)
             continue
+        written.append(png)
         terrain, bounds, crs = read_decimated(path)
         # the horizontal shortwave warped to the same decimated pixels (never the whole grid)
         h, w = terrain.shape
@@ -107,9 +138,9 @@ def _terrain_effects(plan: Plan, zones, overwrite: bool) -> list[Path]:
         src = job.sources["shortwave_down"]
         flat = src.read_layers(coarse, Window(0, 0, w, h))["shortwave_down"]
         when = job.when.strftime("%Y-%m-%d %H:%M UTC")
-        write_side_by_side(flat, terrain, png, bounds=bounds, crs=crs, zones=zones, label="shortwave",
+        write_side_by_side(flat, terrain, png, bounds=bounds, crs=crs, zones=zones.get(), label="shortwave",
                            units="W m-2", title=f"terrain effect on the shortwave, {when} "
                            f"(methods.terrain: {plan.cfg.methods.terrain})",
                            titles=("shortwave_down as given (level ground)",
                                    "incident_shortwave on the terrain's slopes"))
-    return written
+    return written, kept
