@@ -1,6 +1,6 @@
 """Surface emissivity: land-cover lookup tables and the NDVI-threshold method.
 
-Reading the CSV tables is I/O and lives in :mod:`radledger.tables`; this
+Reading the CSV tables is I/O and lives in :mod:`radledger.io.tables`; this
 module only turns a ``{class: emissivity}`` mapping into a lookup array and
 applies it.  Array functions accept Python numbers, NumPy, Dask (kept lazy)
 or xarray arrays and return the same kind.
