@@ -209,12 +209,12 @@ def test_read_only_output_folder_is_refused_even_for_root(scn, capsys):
         ro.chmod(0o755)
 
 
-@pytest.mark.parametrize("directory", ["s3://bucket/run", "https://example.org/out", "/vsis3/bucket/run"])
-def test_output_directory_on_an_object_store_is_refused(scn, capsys, directory):
+@pytest.mark.parametrize("directory", ["gs://bucket/run", "https://example.org/out", "/vsigs/bucket/run"])
+def test_output_directory_on_another_store_is_refused(scn, capsys, directory):
     scn.write_config(**{"output.directory": directory})
     code, _, err = _run_cli(capsys, "run", str(scn.config))
-    assert code == 2 and "output.directory" in err and "not a local folder" in err
-    assert not (scn.folder / "s3:").exists() and not (Path.cwd() / "s3:").exists()
+    assert code == 2 and "output.directory" in err and "not a local folder or an s3:// prefix" in err
+    assert not (scn.folder / "gs:").exists() and not (Path.cwd() / "gs:").exists()
 
 
 def _one_day(scn, shortwave_file):

@@ -18,10 +18,12 @@ created (never folders that were there before).
 from __future__ import annotations
 
 import os
+import sys
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Callable
+from contextlib import contextmanager
+from typing import Callable, Iterator
 
 from .config import Config, load_config
 from .errors import DiskFullError, InputError
@@ -29,7 +31,9 @@ from .execution.engine import Engine
 from .execution.events import RunEvents
 from .execution.graph import JobResult
 from .io.cog import before_rename
+from .io.gdalenv import gdal_env
 from .io.lock import RunLock, sweep_partials
+from .io.objectstore import StoreMirror
 from .io.remote import fingerprint_session
 from .io.space import free_bytes, human_bytes, write_failure
 from .planning.checks import output_problems, remaining_bytes
@@ -82,6 +86,12 @@ def run_config(cfg: Config, *, overwrite: bool = False, scheduler: str | None = 
     """
     events = events or RunEvents()
     t0 = time.monotonic()
+    store = StoreMirror(cfg.output.staging, cfg.output.store) if cfg.output.store else None
+    if store is not None:              # objects of earlier runs: the plan then keeps the current ones
+        with _locked(cfg.output.directory, on_wait or getattr(events, "waiting", None)), gdal_env():
+            pulled = store.pull()
+        if pulled:
+            events.stage_done(f"copied from {cfg.output.store}", len(pulled), 0)
     # the whole-land-cover class scan is left to `check`; a run meets unknown classes in its
     # chunk tasks and then scans once, to name every missing class (stages/jobs.py).  The disk
     # check is made below, once this run holds the output folder.
@@ -119,7 +129,14 @@ def run_config(cfg: Config, *, overwrite: bool = False, scheduler: str | None = 
         failed = False
     finally:
         engine.close()
-        lock.release()
+        try:
+            stopped = not isinstance(sys.exc_info()[1], (Exception, type(None)))   # Ctrl-C, SIGTERM
+            if store is not None and lock.held and not stopped:   # what is finished goes to the store
+                with gdal_env():
+                    sent, same = store.push()
+                events.stage_done(f"uploaded to {cfg.output.store}", len(sent), len(same))
+        finally:
+            lock.release()
         if failed:
             _remove_created(created)
     report.seconds = time.monotonic() - t0
@@ -267,3 +284,15 @@ def _remove_created(created: list[Path]) -> None:
             p.rmdir()
         except OSError:
             break
+
+
+@contextmanager
+def _locked(folder: Path, on_wait) -> Iterator[None]:
+    """Hold ``folder``'s run lock for the block (made if missing)."""
+    lock = RunLock(folder)
+    folder.mkdir(parents=True, exist_ok=True)
+    lock.acquire(on_wait=on_wait)
+    try:
+        yield
+    finally:
+        lock.release()

@@ -23,7 +23,8 @@ def describe_plan(plan) -> str:
              f"methods: sky emissivity {cfg.methods.sky_emissivity}, clouds {cfg.methods.clouds}, "
              f"clear-sky shortwave {cfg.methods.clear_sky_shortwave}, scene to day "
              f"{cfg.methods.scene_to_day}",
-             f"output:  {plan.out} ({', '.join(cfg.output.products)}; {cfg.output.compression})"]
+             f"output:  {cfg.output.store + f' (staged in {plan.out})' if cfg.output.store else plan.out} "
+             f"({', '.join(cfg.output.products)}; {cfg.output.compression})"]
     n_scene = sum(j.kind is TimeKind.SCENES for j in plan.jobs)
     n_day = len(plan.jobs) - n_scene
     lines.append(f"jobs:    {n_scene} scene(s), {n_day} day(s), {len(cfg.composites)} composite(s)"

@@ -182,6 +182,8 @@ class OutputSpec:
     quicklooks: bool = False
     zarr: bool = False            # DIR/zarr/{scenes|days}.zarr
     stac: bool = False            # DIR/stac/catalog.json
+    staging: Path | None = None   # the local folder a run on an object store writes into first
+    store: str | None = None      # s3://bucket/prefix when output.directory names one (not a config key)
 
 
 @dataclass(frozen=True)

@@ -6,6 +6,7 @@ import os
 from pathlib import Path
 
 from ..io.cog import COMPRESSIONS
+from ..io.objectstore import default_staging, is_store_url, store_root
 from ..io.paths import is_remote
 from ..model.layers import ALL_LAYERS, LAYERS
 from ..model.needs import terrain_reason
@@ -165,19 +166,27 @@ def zones(v, value) -> ZonesSpec | None:
 
 
 def output(v, value) -> OutputSpec:
-    value = v.mapping(value, "output", keys_of(OutputSpec))
+    value = v.mapping(value, "output", keys_of(OutputSpec, exclude=("store",)))
     directory = value.get("directory", str(OutputSpec.directory))
+    store = None
     if v.output_override is not None:
         directory = str(v.output_override)
-        d = Path(directory)
+    elif not isinstance(directory, str) or not directory.strip():
+        v.fail("output.directory", "must be a folder path")
+        directory = str(OutputSpec.directory)
+    directory = directory.strip()
+    if is_store_url(directory):
+        store = directory if directory.startswith("s3://") else "s3://" + directory[len("/vsis3/"):]
+        if not store_root(store)[len("/vsis3/"):]:
+            v.fail("output.directory", f"{directory!r}: name a bucket, e.g. s3://bucket/run")
+        d = _staging(v, value.get("staging"), store)
+    elif is_remote(directory) or "://" in directory:
+        v.fail("output.directory", f"{directory!r} is not a local folder or an s3:// prefix; write to a local "
+                                   f"(or mounted) folder, or to s3://bucket/prefix")
+        d = v.base / str(OutputSpec.directory)
     else:
-        if not isinstance(directory, str) or not directory.strip():
-            v.fail("output.directory", "must be a folder path")
-            directory = str(OutputSpec.directory)
-        elif is_remote(directory.strip()) or "://" in directory:
-            v.fail("output.directory", f"{directory!r} is not a local folder; products are written to local (or "
-                                       f"mounted) folders - write there and copy to the object store")
-            directory = str(OutputSpec.directory)
+        if value.get("staging") is not None:
+            v.fail("output.staging", "only for an s3:// output.directory; remove it")
         d = Path(os.path.expanduser(directory))
         d = d if d.is_absolute() else v.base / d
     products = value.get("products", list(OutputSpec.products))
@@ -198,7 +207,20 @@ def output(v, value) -> OutputSpec:
         quicklooks=v.boolean(value.get("quicklooks"), "output.quicklooks", OutputSpec.quicklooks),
         zarr=v.boolean(value.get("zarr"), "output.zarr", OutputSpec.zarr),
         stac=v.boolean(value.get("stac"), "output.stac", OutputSpec.stac),
+        staging=d if store else None,
+        store=store,
     )
+
+
+def _staging(v, value, store: str) -> Path:
+    """The local folder a run on an object store writes into first (``output.staging``)."""
+    if value is None:
+        return default_staging(v.base, store)
+    if not isinstance(value, str) or not value.strip() or "://" in value or value.strip().startswith("/vsi"):
+        v.fail("output.staging", "must be a local folder path")
+        return default_staging(v.base, store)
+    d = Path(os.path.expanduser(value.strip()))
+    return d if d.is_absolute() else v.base / d
 
 
 def _netcdf_products(v, value, products: tuple[str, ...]) -> tuple[str, ...]:
