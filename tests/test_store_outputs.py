@@ -104,3 +104,30 @@ def test_output_store_mistakes_are_config_errors(tmp_path, capsys, directory, st
     assert main(["check", str(scn.config)]) == 2
     err = capsys.readouterr().err
     assert words in err and "Traceback" not in err
+
+
+def test_inputs_on_the_store_give_the_local_products_and_a_changed_object_is_recomputed(tmp_path, bucket, store):
+    scn = make_scenario(tmp_path, shape=(64, 80), chunk=32)
+    run_config(load_config(scn.config))
+    local = read(tmp_path / "out" / "scenes" / "net_radiation_20260714T1810.tif")
+
+    boto3 = pytest.importorskip("boto3")       # an S3 client apart from GDAL puts the inputs there
+    client = boto3.client("s3", endpoint_url=f"http://{store}", region_name="us-east-1",
+                          aws_access_key_id="radledger-test", aws_secret_access_key="radledger-test")
+
+    def put(path, key):
+        client.put_object(Bucket=bucket, Key=key, Body=path.read_bytes())
+
+    put(tmp_path / "albedo.tif", "in/albedo.tif")
+    scn.write_config(**{"scenes.0.albedo": f"s3://{bucket}/in/albedo.tif", "output.directory": "out-s3"})
+    run_config(load_config(scn.config))
+    got = tmp_path / "out-s3" / "scenes" / "net_radiation_20260714T1810.tif"
+    np.testing.assert_array_equal(read(got), local)
+    assert run_config(load_config(scn.config)).written == []          # same object (ETag): kept
+    with rasterio.open(tmp_path / "albedo.tif") as src:                # other pixels at the same key
+        profile, values = src.profile, src.read(1)
+    with rasterio.open(tmp_path / "albedo2.tif", "w", **profile) as dst:
+        dst.write(np.where(values == -9999, values, values + 20), 1)
+    put(tmp_path / "albedo2.tif", "in/albedo.tif")
+    report = run_config(load_config(scn.config))
+    assert got in report.written and not np.array_equal(np.nan_to_num(read(got)), np.nan_to_num(local))
