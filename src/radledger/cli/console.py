@@ -56,6 +56,19 @@ def _source_text(src) -> str:
     return f"{src.path}" + (f" [{src.units}]" if getattr(src, "units", "") else "")
 
 
+def _layer_text(srcs: list, spec) -> str:
+    """One input of an entry over its dates: the file, the template's files or the stack's steps."""
+    paths = {getattr(s, "path", "") for s in srcs}
+    text = _source_text(srcs[0])
+    if len(paths) > 1:
+        template = (spec.template or spec.path) if spec is not None and (spec.template or spec.is_template) \
+            else "per date"
+        text = f"{template}: {len(paths)} files, {srcs[0].path} .. {srcs[-1].path}"
+    elif getattr(srcs[0], "steps", None) is not None and len(srcs) > 1:
+        text += f", steps {srcs[0].steps[0]} .. {srcs[-1].steps[-1]}"
+    return text
+
+
 def _entries(plan) -> list[str]:
     """Each config entry: the dates or times it expands to and the inputs resolved for them."""
     by_entry: dict[str, list] = {}
@@ -67,15 +80,19 @@ def _entries(plan) -> list[str]:
         lines.append(f"  {entry}: {_span(jobs)}; {len(jobs[0].outputs)} product(s) each")
         for layer in jobs[0].sources:
             srcs = [j.sources[layer] for j in jobs if layer in j.sources]
-            paths = {getattr(s, "path", "") for s in srcs}
-            text = _source_text(srcs[0])
             spec = specs.get(entry, {}).get(layer)
-            if len(paths) > 1:
-                template = spec.template if spec is not None and spec.template else "per date"
-                text = f"{template}: {len(paths)} files, {srcs[0].path} .. {srcs[-1].path}"
-            elif getattr(srcs[0], "steps", None) is not None and len(srcs) > 1:
-                text += f", steps {srcs[0].steps[0]} .. {srcs[-1].steps[-1]}"
-            lines.append(f"      {layer}: {text}")
+            if getattr(srcs[0], "parts", None) is None:
+                lines.append(f"      {layer}: {_layer_text(srcs, spec)}")
+                continue
+            # derived per pixel from other inputs (a scene's air temperature from the day's Tmax/Tmin)
+            days = sorted({s.day for s in srcs})
+            span = days[0].isoformat() + (f" .. {days[-1].isoformat()}" if len(days) > 1 else "")
+            lines.append(f"      {srcs[0].method.replace(': ', ' at the scene time: ', 1)}; daily inputs of "
+                         f"{span} (the local solar date of the grid centre)")
+            for n, _ in srcs[0].parts:
+                parts = [dict(s.parts)[n] for s in srcs]
+                pspec = specs.get(entry, {}).get(n)
+                lines.append(f"        {n}: {_layer_text(parts, pspec)}")
         notes = dict.fromkeys(n for j in jobs for n in j.notes)
         lines += [f"      note: {n}" for n in notes]
         if jobs[0].kind is TimeKind.SCENES and "shortwave_down" not in jobs[0].sources:

@@ -6,6 +6,7 @@ expands into one :class:`Scene` or :class:`Day` per date or time, with templates
 
 from __future__ import annotations
 
+from ..model.diurnal import DIURNAL_PAIR
 from ..model.layers import DAY_LAYERS, HUMIDITY_LAYERS, SCENE_LAYERS
 from .dates import entry_dates, entry_times
 from .inputs import parse_input
@@ -70,17 +71,46 @@ def _on_missing(v, entry: dict, key: str) -> str:
     return v.choice(entry.get("on_missing"), f"{key}.on_missing", ON_MISSING, "error")
 
 
+def _air_temperature(v, entry: dict, layers: dict, key: str) -> None:
+    """A scene's air temperature: ``air_temperature``, or the day's pair (Parton & Logan 1981).
+
+    What the entry itself gives wins over ``static:``; the entry may not give both forms, and one of
+    the pair it gives needs the other (here or under ``static:``).  Drops from ``layers`` the form
+    not used.
+    """
+    own = [n for n in DIURNAL_PAIR if n in entry]
+    complete = all(n in layers for n in DIURNAL_PAIR)
+    if "air_temperature" in entry and own:
+        v.fail(f"{key}.{own[0]}", "give air_temperature or the pair air_temperature_max and air_temperature_min "
+                                  "(Parton & Logan 1981 at the scene time), not both")
+    elif own and not complete:
+        other = next(n for n in DIURNAL_PAIR if n not in layers)
+        v.fail(f"{key}.{other}", f"missing: {own[0]} needs {other} too (or give air_temperature instead)")
+    pair = complete and "air_temperature" not in entry and (own or "air_temperature" not in layers)
+    if pair:
+        layers.pop("air_temperature", None)
+        return
+    for n in DIURNAL_PAIR:
+        layers.pop(n, None)
+    if "air_temperature" not in layers and not own:
+        v.fail(f"{key}.air_temperature", "missing; give a raster here or under static: (or the day's "
+                                         "air_temperature_max and air_temperature_min)")
+
+
 def scenes(v, value, static_layers) -> list[Scene]:
     out, seen = [], {}
+    allowed = SCENE_LAYERS + DIURNAL_PAIR
     for i, entry in enumerate(entries(v, value, "scenes")):
         key = f"scenes[{i}]"
-        entry = v.mapping(entry, key, ("time", "times", "on_missing") + SCENE_LAYERS)
-        layers = _layers_of(v, entry, key, SCENE_LAYERS, static_layers, "time")
-        for need in ("albedo", "surface_temperature", "air_temperature"):
+        entry = v.mapping(entry, key, ("time", "times", "on_missing") + allowed)
+        layers = _layers_of(v, entry, key, allowed, static_layers, "time")
+        for need in ("albedo", "surface_temperature"):
             if need not in layers:
                 v.fail(f"{key}.{need}", "missing; give a raster here or under static:")
-        _humidity(v, layers, key, "air_temperature")
-        templates = [s.path for n, s in layers.items() if n in entry and s.is_template]
+        _air_temperature(v, entry, layers, key)
+        _humidity(v, layers, key, "air_temperature" if "air_temperature" in layers else DIURNAL_PAIR[0])
+        # the daily pair is not a scene time's file: discover reads the times from the other inputs
+        templates = [s.path for n, s in layers.items() if n in entry and s.is_template and n not in DIURNAL_PAIR]
         on_missing = _on_missing(v, entry, key)
         for t in entry_times(v, entry, key, templates):
             stamp = t.strftime("%Y%m%dT%H%M")
@@ -88,8 +118,9 @@ def scenes(v, value, static_layers) -> list[Scene]:
                 v.fail(f"{key}.time", f"{t.isoformat()} repeats an earlier scene time (to the minute, {seen[stamp]})")
                 continue
             seen[stamp] = key
-            out.append(Scene(time=t, layers={n: s.at(t) for n, s in layers.items()}, key=key,
-                             on_missing=on_missing))
+            # the daily pair stays unfilled: its date (the local solar date of the grid centre) needs the grid
+            out.append(Scene(time=t, layers={n: (s if n in DIURNAL_PAIR else s.at(t)) for n, s in layers.items()},
+                             key=key, on_missing=on_missing))
     return sorted(out, key=lambda s: s.time)
 
 

@@ -37,8 +37,13 @@ class ChunkContext:
         """The decoded arrays of one source on the window (a shared source is read only once)."""
         if source in self.shared:
             if source not in self._memo:
-                self._memo[source] = source.read_layers(self.grid, self.window, self.memo)
+                self._memo[source] = self._read(source)
             return {k: v.copy() for k, v in self._memo[source].items()}   # kernels may write in place
+        return self._read(source)
+
+    def _read(self, source) -> dict[str, np.ndarray]:
+        if getattr(source, "needs_lonlat", False):   # a layer derived per pixel (a scene's Tmax/Tmin -> Ta)
+            return source.read_layers(self.grid, self.window, self.memo, lonlat=self.lonlat())
         return source.read_layers(self.grid, self.window, self.memo)
 
     def lonlat(self) -> tuple[np.ndarray, np.ndarray]:

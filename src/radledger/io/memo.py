@@ -22,6 +22,8 @@ class ReadMemo:
 
     def want(self, source) -> None:
         """Note the steps a time stack source will read (so the first read fetches them all)."""
+        for _, part in getattr(source, "parts", ()):   # a layer derived from others: their steps
+            self.want(part)
         steps = getattr(source, "steps", None)
         if steps is None:
             return

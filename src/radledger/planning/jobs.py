@@ -19,6 +19,7 @@ from ..errors import GridError, RadledgerError
 from ..io.rasters import check_overlap
 from ..kinds import TimeKind
 from ..model.albedo import AlbedoBetweenScenes
+from ..model.diurnal import DIURNAL_PAIR, DiurnalAirTemperature, local_solar_date
 from ..model.needs import day_needs, scene_needs
 from ..model.params import DayParams, SceneParams
 from ..model.products import DAY_PRODUCTS, SCENE_DAY_PRODUCT, SCENE_PRODUCTS
@@ -51,6 +52,7 @@ class JobBuilder:
     _scene_albedo: list = field(default_factory=list)                 # (time, source) of every scene
     _stations: StationInputs | None = None                             # the stations: table, read once
     _terrain: object = None                                            # TerrainLayers, made once
+    _centre_lon: float | None = None                                   # the grid centre's longitude
 
     def __post_init__(self):
         # the net-radiometer table is read here too, so its problems stop the run before anything is written
@@ -113,25 +115,55 @@ class JobBuilder:
     def _sources(self, entry, layers, kind: TimeKind, when, label: str) -> dict | None:
         """Every source of one date, or None when it is skipped or has a problem (recorded)."""
         out = {}
-        static = set(self.cfg.static.values())
         for layer in layers:
-            spec = entry.layers[layer]
-            try:
-                if spec.interpolate:
-                    out[layer] = self._interpolated_albedo(when, spec)
-                else:
-                    out[layer] = self.source(layer, spec, kind, when)
-            except MissingInput as exc:
-                if entry.on_missing == "skip" and spec not in static:
-                    self.skipped.append((label, str(exc)))
-                else:
-                    self.problems.append(exc)
+            if layer not in entry.layers and layer == "air_temperature" and kind is TimeKind.SCENES:
+                src = self._diurnal(entry, label)      # from the day's Tmax/Tmin (config/entries.py)
+            else:
+                src = self._one(entry, layer, entry.layers[layer], kind, when, label)
+            if src is None:
                 return None
-            except RadledgerError as exc:
-                if str(exc) not in {str(p) for p in self.problems}:   # e.g. a station table's problem, once
-                    self.problems.append(exc)
-                return None
+            out[layer] = src
         return out
+
+    def _one(self, entry, layer: str, spec: InputSpec, kind: TimeKind, when, label: str):
+        """The source of one input of one date, or None when it is skipped or has a problem (recorded)."""
+        try:
+            if spec.interpolate:
+                return self._interpolated_albedo(when, spec)
+            return self.source(layer, spec, kind, when)
+        except MissingInput as exc:
+            if entry.on_missing == "skip" and spec not in set(self.cfg.static.values()):
+                self.skipped.append((label, str(exc)))
+            else:
+                self.problems.append(exc)
+        except RadledgerError as exc:
+            if str(exc) not in {str(p) for p in self.problems}:   # e.g. a station table's problem, once
+                self.problems.append(exc)
+        return None
+
+    def centre_longitude(self) -> float:
+        """The longitude of the grid centre [deg] (its local solar date is a scene's daily date)."""
+        if self._centre_lon is None:
+            x0, y0, x1, y1 = self.grid.bounds
+            x, y = (x0 + x1) / 2, (y0 + y1) / 2
+            self._centre_lon = float(x if self.grid.crs.is_geographic else self.grid.to_lonlat(x, y)[0])
+        return self._centre_lon
+
+    def _diurnal(self, scene, label: str) -> DiurnalAirTemperature | None:
+        """A scene's air temperature from the Tmax and Tmin of its local solar date (Parton & Logan 1981).
+
+        The daily inputs are read like a day's: a template filled with that date (``{date:...}`` and
+        ``{time:...}`` alike, the time at 00:00), a stack's one step on that date.
+        """
+        day = local_solar_date(scene.time, self.centre_longitude())
+        parts = []
+        for name in DIURNAL_PAIR:
+            spec = scene.layers[name]
+            src = self._one(scene, name, spec.at(day), TimeKind.DAYS, day, label)
+            if src is None:
+                return None
+            parts.append((name, src))
+        return DiurnalAirTemperature(time=scene.time, day=day, parts=tuple(parts))
 
     def _interpolated_albedo(self, day: dt.date, spec: InputSpec) -> AlbedoBetweenScenes:
         noon = dt.datetime.combine(day, dt.time(12), tzinfo=dt.timezone.utc)

@@ -52,6 +52,9 @@ def source_fingerprint(src, *, fresh: bool = False) -> list:
     own = getattr(src, "identity", None)
     if callable(own):
         return own()
+    parts = getattr(src, "parts", None)
+    if parts is not None:     # a layer derived from others (a scene's air temperature from Tmax/Tmin)
+        return [*src.settings] + [[name, source_fingerprint(s, fresh=fresh)] for name, s in parts]
     scenes = getattr(src, "scenes", None)
     if scenes is not None:    # a day's albedo between scenes: each scene's albedo, and the day
         return ["albedo between scenes", str(src.day), src.max_gap] + [[str(t), source_fingerprint(s, fresh=fresh)]
@@ -146,21 +149,35 @@ def terrain_tags(cfg: Config, name: str, *, settings_hash: str, dem: str, halo: 
                         settings_hash=settings_hash, extra=extra)
 
 
+def _input_texts(sources: dict) -> list[str]:
+    """``layer=path`` of each input; a derived layer says how, then its own inputs."""
+    out = []
+    for k, s in sorted(sources.items()):
+        parts = getattr(s, "parts", None)
+        if parts is None:
+            out.append(f"{k}={s.path}")
+        else:
+            out += [s.method] + [f"{n}={p.path}" for n, p in parts]
+    return out
+
+
 def job_product_tags(cfg: Config, job, name: str) -> dict[str, str]:
     """Tags of product ``name`` of a scene or day job (``net_radiation_from_scene``: a scene's day product)."""
-    inputs = "; ".join(f"{k}={s.path}" for k, s in sorted(job.sources.items()))
+    inputs = "; ".join(_input_texts(job.sources))
     common = dict(title=cfg.title, inputs=inputs, settings_hash=job.settings_hash)
+    derived = "".join(f"; {s.describe()}" for s in job.sources.values() if getattr(s, "parts", None) is not None)
     if name == SCENE_DAY_PRODUCT:
         total = "daytime total" if cfg.methods.scene_to_day == "sinusoidal" else "24-hour total"
         return product_tags(product_info("net_radiation", TimeKind.DAYS), quantity=name,
                             method=f"scene to day: {cfg.methods.scene_to_day} ({total}) from the "
-                                   f"{job.when.strftime('%Y-%m-%dT%H:%MZ')} scene",
+                                   f"{job.when.strftime('%Y-%m-%dT%H:%MZ')} scene" + derived,
                             time=job.when.date().isoformat(), time_kind=str(TimeKind.DAYS),
                             extra={"daily_total": total}, **common)
     product = product_info(name, job.kind)
     if job.kind is TimeKind.SCENES:
         extra = {"notes": " | ".join(job.notes)} if job.notes else None
-        return product_tags(product, method=_scene_method(cfg), time=job.when.strftime("%Y-%m-%dT%H:%M:%SZ"),
+        return product_tags(product, method=_scene_method(cfg) + derived,
+                            time=job.when.strftime("%Y-%m-%dT%H:%M:%SZ"),
                             time_kind=str(job.kind), extra=extra, **common)
     extra = {"notes": " | ".join(job.notes)} if job.notes else None
     return product_tags(product, method=DAY_METHOD + _terrain_method(cfg, scenes=False), time=job.when.isoformat(),

@@ -87,8 +87,8 @@ def weather_grids(jobs) -> list[WeatherGrid]:
     """Every weather grid the jobs read, once each, in time order."""
     found: dict[Path, WeatherGrid] = {}
     for job in jobs:
-        for src in job.sources.values():
-            if isinstance(src, StationGridSource):
+        for src in (p for s in job.sources.values() for p in (*(x for _, x in getattr(s, "parts", ())), s)):
+            if isinstance(src, StationGridSource):   # (a derived layer's own inputs included)
                 found.setdefault(src.weather.path, src.weather)
     return sorted(found.values(), key=lambda g: (when_text(g.when), g.layer))
 
