@@ -460,3 +460,29 @@ def test_netcdf_takes_the_listed_products_and_an_unchanged_rerun_keeps_stacks_an
     with xr.open_dataset(out / "netcdf" / "net_radiation_days.nc", engine="h5netcdf") as ds:
         np.testing.assert_array_equal(ds["net_radiation"].values[2], read(out / "days" / "net_radiation_20260603.tif"))
         assert not np.array_equal(ds["net_radiation"].values[2], days[2])
+
+
+@pytest.mark.filterwarnings("ignore:variable .t. has multiple fill values")
+def test_stack_reads_decode_cf_packing_as_xarray_does(tmp_path):
+    """NetCDF-4 stacks are read with h5py and decoded by radledger; xarray's CF decoding
+    (mask_and_scale) is the reference: packed int16 with _FillValue and missing_value, and a
+    signed byte variable flagged _Unsigned."""
+    from radledger.io.timestacks import _block
+
+    rng = np.random.default_rng(7)
+    raw = rng.integers(-300, 300, size=(4, 6, 5)).astype(np.int16)
+    raw[0, 0, 0], raw[1, 2, 3] = -32768, -999
+    b = rng.integers(-128, 127, size=(4, 6, 5)).astype(np.int8)
+    ds = xr.Dataset({"t": (("time", "y", "x"), raw, {"scale_factor": 0.05, "add_offset": 280.0,
+                                                     "missing_value": np.int16(-999)}),
+                     "u": (("time", "y", "x"), b, {"_Unsigned": "true", "scale_factor": 0.5})},
+                    coords={"time": pd.date_range("2026-06-01", periods=4)})
+    path = tmp_path / "packed.nc"
+    ds.to_netcdf(path, engine="h5netcdf", encoding={"t": {"_FillValue": np.int16(-32768)},
+                                                   "u": {"_FillValue": None}})
+    with xr.open_dataset(path, engine="h5netcdf") as ref:
+        for name in ("t", "u"):
+            want = ref[name].isel(time=[0, 1, 3], y=slice(1, 5), x=slice(0, 4)).values
+            got = _block(str(path), name, False, [0, 1, 3], slice(1, 5), slice(0, 4))
+            np.testing.assert_allclose(got, want, rtol=1e-6, equal_nan=True, err_msg=name)
+            assert np.isnan(got).sum() == np.isnan(want).sum()

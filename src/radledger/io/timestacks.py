@@ -94,6 +94,21 @@ def _utc(value) -> dt.datetime:
     return value.replace(tzinfo=dt.timezone.utc) if value.tzinfo is None else value.astimezone(dt.timezone.utc)
 
 
+def _decoded_times(coord) -> np.ndarray:
+    """A CF time coordinate's values as datetime64 (standard calendars) or cftime dates (others)."""
+    values = np.asarray(coord.values)
+    units = coord.attrs.get("units")
+    if np.issubdtype(values.dtype, np.datetime64) or not units or "since" not in str(units):
+        return values
+    from xarray.coding.times import decode_cf_datetime
+
+    try:
+        return np.asarray(decode_cf_datetime(values, str(units), coord.attrs.get("calendar", "standard")))
+    except (ValueError, TypeError, OverflowError) as exc:
+        raise InputError(f"time coordinate {coord.name!r}: cannot decode {units!r} ({exc}); give CF time units "
+                         f"such as 'days since 2026-01-01'") from None
+
+
 def _is_lonlat(ds, xdim: str, ydim: str) -> bool:
     names = {str(xdim).lower(), str(ydim).lower()}
     if names & {"lon", "longitude"} and names & {"lat", "latitude"}:
@@ -109,7 +124,9 @@ def _is_lonlat(ds, xdim: str, ydim: str) -> bool:
 @lru_cache(maxsize=256)
 def stack_info(path: str, variable: str) -> StackInfo:
     """The header of ``variable`` in the stack at ``path`` (cached per process)."""
-    ds = _open(path, mask_and_scale=False, decode_times=True)
+    # times decoded here, not by the opener: xarray's own decoding checks for Dask arrays, which
+    # imports dask.array and SciPy's sparse matrices (~30 MB in every process) for nothing
+    ds = _open(path, mask_and_scale=False, decode_times=False)
     with ds:
         if variable not in ds.data_vars:
             names = ", ".join(str(n) for n in ds.data_vars) or "none"
@@ -137,7 +154,7 @@ def stack_info(path: str, variable: str) -> StackInfo:
                 raise InputError(f"{path}: variable {variable} has no grid_mapping and no lon/lat coordinates; "
                                  f"add a CF grid_mapping so its CRS is known")
             crs = CRS.from_epsg(4326)
-        times = tuple(_utc(t) for t in ds[tdim].values)
+        times = tuple(_utc(t) for t in _decoded_times(ds[tdim]))
         enc = {**da.attrs, **da.encoding}
         return StackInfo(path=path, variable=variable, times=times, units=str(da.attrs.get("units", "")),
                          crs=crs, transform=transform, shape=(int(da.sizes[ydim]), int(da.sizes[xdim])),
@@ -186,6 +203,81 @@ def _cached(path: str, raw: bool):
                 cache.pop(k).close()
         cache[key] = _open(path, mask_and_scale=not raw, decode_times=False)
     return cache[key]
+
+
+def _hdf5(path: str):
+    """The stack as an open h5py file (NetCDF-4 is HDF5; one handle per thread), or None."""
+    cache = getattr(_local, "hdf5", None)
+    if cache is None:
+        cache = _local.hdf5 = {}
+    if path not in cache:
+        import h5py
+
+        handle = None
+        try:
+            if not path.lower().rstrip("/").endswith(".zarr") and h5py.is_hdf5(path):
+                handle = h5py.File(path, "r")
+        except (OSError, ValueError):
+            handle = None
+        if len(cache) >= 32:
+            for k in list(cache)[:16]:
+                old = cache.pop(k)
+                if old is not None:
+                    old.close()
+        cache[path] = handle
+    return cache[path]
+
+
+def _attr(attrs, name):
+    value = attrs.get(name)
+    if isinstance(value, bytes):
+        value = value.decode("utf-8", "replace")
+    if isinstance(value, np.ndarray) and value.size == 1:
+        value = value.reshape(()).item()
+    return value
+
+
+def _cf_decoded(stored: np.ndarray, attrs) -> np.ndarray:
+    """Stored values decoded as CF (and xarray's ``mask_and_scale``) says, as float64.
+
+    ``_Unsigned`` integers read unsigned; ``_FillValue`` and ``missing_value`` are missing (NaN);
+    then ``value = stored * scale_factor + add_offset``.
+    """
+    if stored.dtype.kind == "i" and str(_attr(attrs, "_Unsigned")).lower() == "true":
+        stored = stored.view(stored.dtype.str.replace("i", "u"))
+    a = stored.astype(np.float64)
+    for name in ("_FillValue", "missing_value"):
+        fill = attrs.get(name)
+        if fill is None:
+            continue
+        for f in np.atleast_1d(np.asarray(fill, dtype=np.float64)):
+            if not np.isnan(f):
+                a[stored == np.asarray(f).astype(stored.dtype)] = np.nan
+    scale, offset = _attr(attrs, "scale_factor"), _attr(attrs, "add_offset")
+    if scale is not None:
+        a *= float(scale)
+    if offset is not None:
+        a += float(offset)
+    return a
+
+
+def _block(path: str, variable: str, raw: bool, steps, rows: slice, cols: slice) -> np.ndarray:
+    """float64 values of ``variable`` at ``steps`` (an index or a list), ``rows`` and ``cols``:
+    CF-decoded, or the stored numbers when ``raw`` (the config's own decoding follows).
+
+    NetCDF-4 files are read with h5py directly (xarray's indexing would import dask.array and
+    SciPy's sparse matrices, ~30 MB in every process, to check for Dask arrays); Zarr and other
+    formats through xarray."""
+    handle = _hdf5(path)
+    if handle is not None and variable in handle:
+        var = handle[variable]
+        if isinstance(steps, list) and steps != sorted(set(steps)):
+            stored = np.stack([var[s, rows, cols] for s in steps])
+        else:
+            stored = var[steps, rows, cols]
+        return stored.astype(np.float64) if raw else _cf_decoded(stored, var.attrs)
+    da = _cached(path, raw)[variable]
+    return np.asarray(da.isel({da.dims[0]: steps, da.dims[-2]: rows, da.dims[-1]: cols}).values, dtype=np.float64)
 
 
 @dataclass(frozen=True)
@@ -262,10 +354,8 @@ class StackSource:
         """A small decoded sample of the first step (a strided read), cheap whatever the stack's size."""
         h, w = self.info.shape
         step = max(1, math.ceil(max(h, w) / max_pixels))
-        ds = _cached(self.path, self.raw)
-        da = ds[self.variable]
-        a = np.asarray(da.isel({da.dims[0]: self.steps[0], da.dims[-2]: slice(None, None, step),
-                                da.dims[-1]: slice(None, None, step)}).values, dtype=np.float64)
+        a = _block(self.path, self.variable, self.raw, self.steps[0], slice(None, None, step),
+                   slice(None, None, step))
         if self.raw:
             if self.nodata is not None:
                 a[a == self.nodata] = np.nan
@@ -318,11 +408,8 @@ class StackSource:
 
     def _read_steps(self, steps, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
         """Decoded float64 values of several steps of the slab, in one request."""
-        ds = _cached(self.path, self.raw)
-        da = ds[self.variable]
         try:
-            a = np.asarray(da.isel({da.dims[0]: list(steps), da.dims[-2]: slice(r0, r1),
-                                    da.dims[-1]: slice(c0, c1)}).values, dtype=np.float64)
+            a = _block(self.path, self.variable, self.raw, list(steps), slice(r0, r1), slice(c0, c1))
         except Exception as exc:
             raise InputError(f"{self.path}: reading {self.variable} steps {steps[0]}..{steps[-1]} failed "
                              f"({exc.__class__.__name__}: {' '.join(str(exc).split())[:160]}); the file may "
@@ -334,15 +421,10 @@ class StackSource:
         return a
 
     def _slab(self, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
-        ds = _cached(self.path, self.raw)
-        da = ds[self.variable]
-        tdim = da.dims[0]
-        ydim, xdim = da.dims[-2], da.dims[-1]
         total = None
         for step, weight in zip(self.steps, self.weights):
             try:
-                a = np.asarray(da.isel({tdim: step, ydim: slice(r0, r1), xdim: slice(c0, c1)}).values,
-                               dtype=np.float64)
+                a = _block(self.path, self.variable, self.raw, step, slice(r0, r1), slice(c0, c1))
             except Exception as exc:
                 raise InputError(f"{self.path}: reading {self.variable} step {step} failed "
                                  f"({exc.__class__.__name__}: {' '.join(str(exc).split())[:160]}); the file may "

@@ -4,14 +4,12 @@ from __future__ import annotations
 
 from pathlib import Path
 
-import dask.array as da
 import numpy as np
 
 from .._version import __version__
 from ..config import CompositeSpec
 from ..execution.engine import Engine
 from ..io.cog import ProductFile, is_current, read_tags
-from ..outputs.composites import composite
 from ..planning.plan import Plan
 from ..planning.provenance import composite_tags, settings_hash
 from .products import composite_paths, net_radiation_files
@@ -39,6 +37,16 @@ def run_composite(plan: Plan, comp: CompositeSpec, engine: Engine, *, overwrite:
         return [], skipped
     if stream is not None:
         return _from_stream(plan, comp, engine, stream, todo, members, h), skipped
+    return _from_products(plan, comp, engine, todo, members, h), skipped
+
+
+def _from_products(plan: Plan, comp: CompositeSpec, engine: Engine, todo: dict, members: list, h: str
+                   ) -> list[Path]:
+    """The statistics computed from the finished products (read back chunk by chunk)."""
+    import dask.array as da       # here only: a streamed season never needs Dask arrays
+
+    from ..outputs.composites import composite
+
     if members:
         arrays = composite([str(p) for _, p in members], plan.grid, statistics=tuple(todo),
                            min_count=comp.min_count,
@@ -60,7 +68,7 @@ def run_composite(plan: Plan, comp: CompositeSpec, engine: Engine, *, overwrite:
         for f in files:
             f.abort()
         raise
-    return written, skipped
+    return written
 
 
 def _files(plan: Plan, comp: CompositeSpec, todo: dict, members: list, h: str, in_task: tuple = ()) -> dict:
