@@ -25,6 +25,7 @@ from rasterio.windows import Window
 
 from ..errors import InputError
 from ..grid import TargetGrid
+from .cf import H5Header, cf_decoded, decoded_times, is_hdf5, open_hdf5
 from .memo import ReadMemo
 from .resample import FAST_RESAMPLING, warp_for
 
@@ -94,19 +95,11 @@ def _utc(value) -> dt.datetime:
     return value.replace(tzinfo=dt.timezone.utc) if value.tzinfo is None else value.astimezone(dt.timezone.utc)
 
 
-def _decoded_times(coord) -> np.ndarray:
-    """A CF time coordinate's values as datetime64 (standard calendars) or cftime dates (others)."""
-    values = np.asarray(coord.values)
-    units = coord.attrs.get("units")
-    if np.issubdtype(values.dtype, np.datetime64) or not units or "since" not in str(units):
-        return values
-    from xarray.coding.times import decode_cf_datetime
-
-    try:
-        return np.asarray(decode_cf_datetime(values, str(units), coord.attrs.get("calendar", "standard")))
-    except (ValueError, TypeError, OverflowError) as exc:
-        raise InputError(f"time coordinate {coord.name!r}: cannot decode {units!r} ({exc}); give CF time units "
-                         f"such as 'days since 2026-01-01'") from None
+def _header(path: str):
+    """The stack's header: h5netcdf for NetCDF-4 files, xarray (undecoded) for Zarr and others."""
+    if is_hdf5(path):
+        return H5Header(path)
+    return _open(path, mask_and_scale=False, decode_times=False)
 
 
 def _is_lonlat(ds, xdim: str, ydim: str) -> bool:
@@ -124,9 +117,7 @@ def _is_lonlat(ds, xdim: str, ydim: str) -> bool:
 @lru_cache(maxsize=256)
 def stack_info(path: str, variable: str) -> StackInfo:
     """The header of ``variable`` in the stack at ``path`` (cached per process)."""
-    # times decoded here, not by the opener: xarray's own decoding checks for Dask arrays, which
-    # imports dask.array and SciPy's sparse matrices (~30 MB in every process) for nothing
-    ds = _open(path, mask_and_scale=False, decode_times=False)
+    ds = _header(path)
     with ds:
         if variable not in ds.data_vars:
             names = ", ".join(str(n) for n in ds.data_vars) or "none"
@@ -154,7 +145,7 @@ def stack_info(path: str, variable: str) -> StackInfo:
                 raise InputError(f"{path}: variable {variable} has no grid_mapping and no lon/lat coordinates; "
                                  f"add a CF grid_mapping so its CRS is known")
             crs = CRS.from_epsg(4326)
-        times = tuple(_utc(t) for t in _decoded_times(ds[tdim]))
+        times = tuple(_utc(t) for t in decoded_times(ds[tdim]))
         enc = {**da.attrs, **da.encoding}
         return StackInfo(path=path, variable=variable, times=times, units=str(da.attrs.get("units", "")),
                          crs=crs, transform=transform, shape=(int(da.sizes[ydim]), int(da.sizes[xdim])),
@@ -205,62 +196,6 @@ def _cached(path: str, raw: bool):
     return cache[key]
 
 
-def _hdf5(path: str):
-    """The stack as an open h5py file (NetCDF-4 is HDF5; one handle per thread), or None."""
-    cache = getattr(_local, "hdf5", None)
-    if cache is None:
-        cache = _local.hdf5 = {}
-    if path not in cache:
-        import h5py
-
-        handle = None
-        try:
-            if not path.lower().rstrip("/").endswith(".zarr") and h5py.is_hdf5(path):
-                handle = h5py.File(path, "r")
-        except (OSError, ValueError):
-            handle = None
-        if len(cache) >= 32:
-            for k in list(cache)[:16]:
-                old = cache.pop(k)
-                if old is not None:
-                    old.close()
-        cache[path] = handle
-    return cache[path]
-
-
-def _attr(attrs, name):
-    value = attrs.get(name)
-    if isinstance(value, bytes):
-        value = value.decode("utf-8", "replace")
-    if isinstance(value, np.ndarray) and value.size == 1:
-        value = value.reshape(()).item()
-    return value
-
-
-def _cf_decoded(stored: np.ndarray, attrs) -> np.ndarray:
-    """Stored values decoded as CF (and xarray's ``mask_and_scale``) says, as float64.
-
-    ``_Unsigned`` integers read unsigned; ``_FillValue`` and ``missing_value`` are missing (NaN);
-    then ``value = stored * scale_factor + add_offset``.
-    """
-    if stored.dtype.kind == "i" and str(_attr(attrs, "_Unsigned")).lower() == "true":
-        stored = stored.view(stored.dtype.str.replace("i", "u"))
-    a = stored.astype(np.float64)
-    for name in ("_FillValue", "missing_value"):
-        fill = attrs.get(name)
-        if fill is None:
-            continue
-        for f in np.atleast_1d(np.asarray(fill, dtype=np.float64)):
-            if not np.isnan(f):
-                a[stored == np.asarray(f).astype(stored.dtype)] = np.nan
-    scale, offset = _attr(attrs, "scale_factor"), _attr(attrs, "add_offset")
-    if scale is not None:
-        a *= float(scale)
-    if offset is not None:
-        a += float(offset)
-    return a
-
-
 def _block(path: str, variable: str, raw: bool, steps, rows: slice, cols: slice) -> np.ndarray:
     """float64 values of ``variable`` at ``steps`` (an index or a list), ``rows`` and ``cols``:
     CF-decoded, or the stored numbers when ``raw`` (the config's own decoding follows).
@@ -268,14 +203,14 @@ def _block(path: str, variable: str, raw: bool, steps, rows: slice, cols: slice)
     NetCDF-4 files are read with h5py directly (xarray's indexing would import dask.array and
     SciPy's sparse matrices, ~30 MB in every process, to check for Dask arrays); Zarr and other
     formats through xarray."""
-    handle = _hdf5(path)
+    handle = open_hdf5(path)
     if handle is not None and variable in handle:
         var = handle[variable]
         if isinstance(steps, list) and steps != sorted(set(steps)):
             stored = np.stack([var[s, rows, cols] for s in steps])
         else:
             stored = var[steps, rows, cols]
-        return stored.astype(np.float64) if raw else _cf_decoded(stored, var.attrs)
+        return stored.astype(np.float64) if raw else cf_decoded(stored, var.attrs)
     da = _cached(path, raw)[variable]
     return np.asarray(da.isel({da.dims[0]: steps, da.dims[-2]: rows, da.dims[-1]: cols}).values, dtype=np.float64)
 
