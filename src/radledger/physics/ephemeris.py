@@ -39,6 +39,7 @@ from __future__ import annotations
 
 import datetime as _dt
 import functools
+import os
 
 import numpy as np
 
@@ -86,14 +87,33 @@ def _unix_seconds(time) -> float:
     )
 
 
+@functools.lru_cache(maxsize=1)
+def _pvlib_spa():
+    """pvlib's ``spa`` module, loaded on its own.
+
+    ``pvlib.spa`` needs only NumPy, but importing it through the package runs ``pvlib/__init__``,
+    which imports pandas and the rest of pvlib (~85 MB and ~0.7 s in every run that needs the sun).
+    The same file is loaded here as a module of its own; a ``pvlib.spa`` already imported is used.
+    """
+    import importlib.util
+    import sys
+
+    if "pvlib.spa" in sys.modules:
+        return sys.modules["pvlib.spa"]
+    package = importlib.util.find_spec("pvlib")
+    if package is None or not package.submodule_search_locations:  # pragma: no cover - a dependency
+        raise ImportError("the precise sun position needs pvlib: pip install pvlib")
+    path = os.path.join(list(package.submodule_search_locations)[0], "spa.py")
+    spec = importlib.util.spec_from_file_location("radledger_pvlib_spa", path)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module
+
+
 @functools.lru_cache(maxsize=64)
 def _geocentric_sun(unix_seconds: float, delta_t: float) -> tuple[float, float, float, float]:
     """Apparent sidereal time, right ascension, declination [deg] and distance [AU]."""
-    try:
-        from pvlib import spa  # imported here: only the precise sun needs pvlib
-    except ImportError as err:  # pragma: no cover - pvlib is a dependency
-        raise ImportError("the precise sun position needs pvlib: pip install pvlib") from err
-
+    spa = _pvlib_spa()
     t = np.array([unix_seconds], dtype=np.float64)
     # The site arguments are ignored by the sst/esd shortcuts; numthreads=1
     # keeps pvlib from starting threads for one instant.
