@@ -1,7 +1,7 @@
 """End-to-end benchmark: `radledger run` against a hand-written plain script.
 
     python benchmarks/bench_scene.py --size 4096 [--size2 8192] [--repeat 3] [--chunk 1024]
-                                     [--keep] [--json FILE]
+                                     [--products {net_radiation,all}] [--keep] [--json FILE]
 
 For each size it makes (once; cached under benchmarks/_work/N/) a synthetic
 N x N six-layer scene on one UTM grid, writes a radledger config for it, then
@@ -9,7 +9,10 @@ times `radledger run --quiet --overwrite CONFIG` and `python plain_script.py`
 as separate processes under `/usr/bin/time -v` (wall time and peak RSS): one
 warm-up of each, then --repeat rounds, alternating which goes first.  It
 reports medians, the ratios, the output sizes and the largest difference
-between the two net-radiation maps.  See benchmarks/README.md.
+between the two net-radiation maps.  With --products all both programs write
+the four default products (net radiation, net shortwave, net longwave,
+quality) and the maps are compared product by product.  See
+benchmarks/README.md.
 """
 
 from __future__ import annotations
@@ -41,7 +44,14 @@ RES = 30.0
 ORIGIN = (300000.0, 4300000.0)      # upper-left corner, UTM 11N
 BLOCK = 512
 SCENE_TIME = "2026-07-14T18:10:00Z"
-OUT_STEM = "net_radiation_20260714T1810.tif"
+SCENE_STAMP = "20260714T1810"
+PRODUCT_SETS = {
+    "net_radiation": ("net_radiation",),
+    "all": ("net_radiation", "net_shortwave", "net_longwave", "quality"),
+}
+FLOAT_PRODUCTS = ("net_radiation", "net_shortwave", "net_longwave")
+QUALITY_MISSING = 1                 # quality bit "an input is nodata" (both programs)
+QUALITY_NODATA = 255
 
 # layer file -> (range, seed); float32, smooth synthetic fields
 FLOAT_LAYERS = {
@@ -146,7 +156,7 @@ def make_scene(n: int, log=print) -> Path:
     return d
 
 
-def write_config(d: Path, chunk: int) -> Path:
+def write_config(d: Path, chunk: int, products=PRODUCT_SETS["net_radiation"]) -> Path:
     cfg = d / "config.yaml"
     cfg.write_text(f"""\
 title: radledger benchmark scene {d.name} x {d.name} (synthetic)
@@ -174,7 +184,7 @@ scenes:
     shortwave_down: rs.tif
 output:
   directory: out_radledger
-  products: [net_radiation]
+  products: [{", ".join(products)}]
   compression: zstd
 """)
     return cfg
@@ -245,16 +255,37 @@ def max_abs_diff(a_path, b_path, rows=BLOCK):
     return worst, nan_mismatch, nan_both
 
 
+def quality_diff(a_path, b_path, bit=QUALITY_MISSING, rows=BLOCK):
+    """Pixels (both not nodata) where ``bit`` differs, and pixels that are nodata (255) in only one."""
+    differ, nodata_mismatch = 0, 0
+    with rasterio.open(a_path) as a, rasterio.open(b_path) as b:
+        if (a.width, a.height) != (b.width, b.height):
+            raise RunFailed(f"shapes differ: {a.shape} vs {b.shape}")
+        for r0 in range(0, a.height, rows):
+            w = Window(0, r0, a.width, min(rows, a.height - r0))
+            x, y = a.read(1, window=w), b.read(1, window=w)
+            nx, ny = x == QUALITY_NODATA, y == QUALITY_NODATA
+            nodata_mismatch += int(np.count_nonzero(nx != ny))
+            ok = ~(nx | ny)
+            differ += int(np.count_nonzero(((x & bit) != (y & bit)) & ok))
+    return differ, nodata_mismatch
+
+
 def bench_size(n, args, radledger_cmd, log=print):
     d = make_scene(n, log)
-    cfg = write_config(d, args.chunk)
-    rl_out = d / "out_radledger" / "scenes" / OUT_STEM
+    products = PRODUCT_SETS[args.products]
+    cfg = write_config(d, args.chunk, products)
+    rl_outs = {p: d / "out_radledger" / "scenes" / f"{p}_{SCENE_STAMP}.tif" for p in products}
     plain_dir = d / "plain"
     plain_dir.mkdir(exist_ok=True)
-    plain_out = plain_dir / "net_radiation.tif"
+    plain_outs = {p: plain_dir / f"{p}.tif" for p in products}
+    if args.products == "all":
+        plain_cmd = [sys.executable, str(PLAIN), "--all-products", str(d), str(plain_dir)]
+    else:
+        plain_cmd = [sys.executable, str(PLAIN), str(d), str(plain_outs["net_radiation"])]
     cmds = {
         "radledger": [*radledger_cmd, "run", "--quiet", "--overwrite", str(cfg)],
-        "plain": [sys.executable, str(PLAIN), str(d), str(plain_out)],
+        "plain": plain_cmd,
     }
     runs = {"radledger": [], "plain": []}
     log(f"{n} x {n}: warm-up ...")
@@ -271,25 +302,44 @@ def bench_size(n, args, radledger_cmd, log=print):
             t = timed(cmds[name], name, d, envs[name])
             runs[name].append(t)
             show(f"round {i + 1}", name, t)
-    if not rl_out.exists():
-        raise RunFailed(f"radledger exited 0 but {rl_out} does not exist")
+    for name, outs in (("radledger", rl_outs), ("plain", plain_outs)):
+        for path in outs.values():
+            if not path.exists():
+                raise RunFailed(f"{name} exited 0 but {path} does not exist")
     med = {k: {"wall_s": statistics.median(r["wall_s"] for r in v),
                "cpu_s": statistics.median(r["cpu_s"] for r in v),
                "peak_mb": statistics.median(r["peak_mb"] for r in v),
                "wall_min": min(r["wall_s"] for r in v), "wall_max": max(r["wall_s"] for r in v)}
            for k, v in runs.items()}
-    diff, nan_mismatch, nan_both = max_abs_diff(rl_out, plain_out)
-    size_rl, size_plain = rl_out.stat().st_size, plain_out.stat().st_size
+    compare = {}
+    for p in products:
+        if p == "quality":
+            differ, nodata_mismatch = quality_diff(rl_outs[p], plain_outs[p])
+            compare[p] = {"bit": QUALITY_MISSING, "bit_differs_pixels": differ,
+                          "nodata_mismatch_pixels": nodata_mismatch}
+        else:
+            diff, nan_mismatch, nan_both = max_abs_diff(rl_outs[p], plain_outs[p])
+            compare[p] = {"max_abs_diff_w_m2": diff, "nan_mismatch_pixels": nan_mismatch,
+                          "nan_both_pixels": nan_both}
+    sizes = {p: {"radledger": rl_outs[p].stat().st_size, "plain": plain_outs[p].stat().st_size}
+             for p in products}
+    size_rl = sum(s["radledger"] for s in sizes.values())
+    size_plain = sum(s["plain"] for s in sizes.values())
+    rn = compare["net_radiation"]
     res = {
         "size": n, "pixels": n * n, "chunk": args.chunk, "repeat": args.repeat,
+        "products": list(products),
         "radledger_env": args.radledger_env,
         "runs": runs, "median": med,
         "max_load_before": max(r["load_before"] for v in runs.values() for r in v),
         "time_ratio_plain_over_radledger": med["plain"]["wall_s"] / med["radledger"]["wall_s"],
         "peak_ratio_radledger_over_plain": med["radledger"]["peak_mb"] / med["plain"]["peak_mb"],
         "output_bytes": {"radledger": size_rl, "plain": size_plain},
+        "output_bytes_per_product": sizes,
         "output_size_ratio_radledger_over_plain": size_rl / size_plain,
-        "max_abs_diff_w_m2": diff, "nan_mismatch_pixels": nan_mismatch, "nan_both_pixels": nan_both,
+        "max_abs_diff_w_m2": rn["max_abs_diff_w_m2"], "nan_mismatch_pixels": rn["nan_mismatch_pixels"],
+        "nan_both_pixels": rn["nan_both_pixels"],
+        "compare": compare,
     }
     if not args.keep:
         shutil.rmtree(d / "out_radledger", ignore_errors=True)
@@ -303,6 +353,7 @@ def table(r):
     lines = [
         f"scene {n} x {n} ({n * n / 1e6:.1f} Mpx), chunk {r['chunk']}, median of {r['repeat']} "
         f"(after one warm-up each); 1-min load average before runs <= {r['max_load_before']:.1f}"
+        f"\n  products: {', '.join(r['products'])}"
         + (f"\n  radledger run with extra environment {r['radledger_env']}" if r["radledger_env"] else ""),
         f"  {'':22s} {'wall s':>8s} {'(min-max)':>15s} {'cpu s':>8s} {'peak MB':>9s}",
     ]
@@ -310,14 +361,25 @@ def table(r):
         lines.append(f"  {k:22s} {m[k]['wall_s']:8.2f} {m[k]['wall_min']:7.2f}-{m[k]['wall_max']:<7.2f}"
                      f" {m[k]['cpu_s']:8.2f} {m[k]['peak_mb']:9.0f}")
     ob = r["output_bytes"]
+    several = len(r["products"]) > 1
     lines += [
         f"  time ratio plain / radledger      {r['time_ratio_plain_over_radledger']:6.2f}  (>1: radledger faster)",
         f"  peak-memory ratio radledger/plain {r['peak_ratio_radledger_over_plain']:6.2f}",
         f"  output-size ratio radledger/plain {r['output_size_ratio_radledger_over_plain']:6.3f}"
-        f"  ({ob['radledger'] / 2**20:.1f} MB vs {ob['plain'] / 2**20:.1f} MB)",
-        f"  max |Rn_radledger - Rn_plain|     {r['max_abs_diff_w_m2']:.3g} W m-2"
-        f"  (NaN in one only: {r['nan_mismatch_pixels']} px, in both: {r['nan_both_pixels']} px)",
+        f"  ({ob['radledger'] / 2**20:.1f} MB vs {ob['plain'] / 2**20:.1f} MB"
+        + (f", {len(r['products'])} files each)" if several else ")"),
     ]
+    symbols = {"net_radiation": "Rn", "net_shortwave": "Rns", "net_longwave": "Rnl"}
+    for p in r["products"]:
+        c = r["compare"][p]
+        if p == "quality":
+            lines.append(f"  quality bit {c['bit']} differs             {c['bit_differs_pixels']} px"
+                         f"  (nodata 255 in one only: {c['nodata_mismatch_pixels']} px)")
+            continue
+        s = symbols[p]
+        label = f"max |{s}_radledger - {s}_plain|"
+        lines.append(f"  {label:33s} {c['max_abs_diff_w_m2']:.3g} W m-2"
+                     f"  (NaN in one only: {c['nan_mismatch_pixels']} px, in both: {c['nan_both_pixels']} px)")
     return "\n".join(lines)
 
 
@@ -352,6 +414,10 @@ def main(argv=None):
     ap.add_argument("--size2", type=int, default=None, help="a second, larger scene edge (e.g. 8192)")
     ap.add_argument("--repeat", type=int, default=3, help="timed rounds after the warm-up (default 3)")
     ap.add_argument("--chunk", type=int, default=1024, help="grid.chunk in the radledger config (default 1024)")
+    ap.add_argument("--products", choices=sorted(PRODUCT_SETS), default="net_radiation",
+                    help="net_radiation (default): one COG each; all: the four default products "
+                         "(net_radiation, net_shortwave, net_longwave, quality), the plain script "
+                         "run with --all-products")
     ap.add_argument("--keep", action="store_true", help="keep both outputs under benchmarks/_work/N/")
     ap.add_argument("--json", metavar="FILE", help="also write the numbers as JSON")
     ap.add_argument("--radledger-env", metavar="KEY=VALUE", action="append", default=[],
