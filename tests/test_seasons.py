@@ -382,9 +382,11 @@ def test_a_season_gets_one_long_zone_table_and_a_rerun_redoes_only_tables_whose_
            "air_temperature_max": {"path": name, "variable": "tmax"},
            "air_temperature_min": {"path": name, "variable": "tmin"},
            "vapour_pressure": {"path": name, "variable": "vp"}}
-    cfg = _config(tmp_path, days=[day], zones={"path": "basins.geojson", "id": "basin"})
+    cfg = _config(tmp_path, days=[day], zones={"path": "basins.geojson", "id": "basin"},
+                  composites=[{"name": "early", "from": "days", "start": "2026-06-01", "end": "2026-06-05"}])
     run_config(load_config(cfg))
     zones = tmp_path / "out" / "zones"
+    assert (zones / "early_mean.csv").exists() and (zones / "early_count.csv").exists()   # composites too
     with open(zones / "net_radiation_days.csv", newline="") as fh:
         rows = list(csv.DictReader(fh))
     assert list(rows[0]) == ["date", "basin", "mean", "min", "max", "std", "count", "coverage", "area_km2", "units"]
@@ -414,7 +416,7 @@ def test_a_season_gets_one_long_zone_table_and_a_rerun_redoes_only_tables_whose_
     # other zones (here: another weighting) redo every table
     cfg.write_text(cfg.read_text().replace("id: basin", "id: basin\n  weighting: coverage"))
     report = run_config(load_config(cfg))
-    assert len([p for p in report.written if p.parent == zones]) == 6
+    assert len([p for p in report.written if p.parent == zones]) == 8   # 5 days, 2 composite files, the series
 
 
 def test_netcdf_takes_the_listed_products_and_an_unchanged_rerun_keeps_stacks_and_quicklooks(tmp_path):

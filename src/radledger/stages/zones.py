@@ -38,7 +38,7 @@ PRODUCTS_PER_PASS = 8
 @dataclass(frozen=True)
 class _Target:
     product: Path                      # a net_radiation product or a composite statistic file
-    series: tuple[str, str] | None     # (product name, scenes|days) of a dated product, else None
+    series: tuple[str, str] | None = None   # (product name, scenes|days) of a dated product, else None
     when: object = None                # its date or scene time
     units: str = ""
 
