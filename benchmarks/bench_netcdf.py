@@ -152,7 +152,9 @@ def compare(a_path: Path, b_path: Path, name: str) -> dict:
         a, b = fa[name], fb[name]
         for what in ("shape", "dtype", "chunks", "compression", "compression_opts", "shuffle", "fillvalue"):
             va, vb = getattr(a, what), getattr(b, what)
-            if not (va == vb or (isinstance(va, float) and np.isnan(va) and np.isnan(vb))):
+            same = va == vb if isinstance(va, (str, tuple, bool, np.dtype, type(None))) else \
+                np.array_equal(np.asarray(va), np.asarray(vb), equal_nan=np.asarray(va).dtype.kind == "f")
+            if not same:
                 res.setdefault("layout_differs", []).append(f"{what}: {va} vs {vb}")
         u = f"u{a.dtype.itemsize}"
         ct, cy, cx = a.chunks

@@ -248,8 +248,6 @@ def _fill(path: Path, name: str, readers: list, grid: TargetGrid) -> None:
 
 def read_stack_hash(path: str | os.PathLike) -> str | None:
     """The ``settings_hash`` global attribute of a stack (None when absent or the file unreadable)."""
-    import h5py
-
     try:
         with h5py.File(path, "r") as f:
             value = f.attrs.get("settings_hash")
