@@ -7,8 +7,11 @@ cf-convention/cf-convention.github.io: Data/cf-standard-names/current/src/cf-sta
 
 from __future__ import annotations
 
+import itertools
 from datetime import date, datetime, timedelta, timezone
 
+import dask.array as da
+import h5py
 import netCDF4
 import numpy as np
 import pytest
@@ -19,7 +22,9 @@ from pyproj import CRS
 from helpers_rasters import utm_grid, write_raster
 from radledger.errors import InputError, OutputError
 from radledger.grid import TargetGrid
-from radledger.outputs.netcdf import write_stack
+from radledger.io.h5chunks import write_chunks
+from radledger.io.lazy import _WindowReader, read_product
+from radledger.outputs.netcdf import stack_layout, write_stack
 from radledger.model.products import SCENE_QUALITY_BITS as QUALITY_BITS, product_info
 
 # canonical units from the CF standard-name table XML (source in the module docstring)
@@ -172,22 +177,28 @@ def test_geographic_grid_coordinates(tmp_path):
 
 
 def test_failed_write_leaves_nothing(days_stack, tmp_path, monkeypatch):
+    """A read failing half-way through the chunks (the file then exists, partly filled) leaves nothing."""
     grid, _, days, _ = days_stack
-    paths = [write_raster(tmp_path / "a.tif", grid, np.ones(grid.shape, np.float32))]
+    paths = [write_raster(tmp_path / f"{c}.tif", grid, np.ones(grid.shape, np.float32)) for c in "ab"]
     target = tmp_path / "stack.nc"
     target.write_bytes(b"previous")
+    calls = itertools.count()
+    seen = []
+    real_read = _WindowReader.read
 
-    def broken(self, path, **kwargs):
-        with open(path, "wb") as fh:
-            fh.write(b"partial")
-        raise OSError("disk full")
+    def broken(self, src, window):
+        if next(calls) == 7:  # of 2 dates x 6 chunks
+            seen.extend((p.name, p.stat().st_size) for p in tmp_path.glob(".stack.nc*"))
+            raise OSError("disk full")
+        return real_read(self, src, window)
 
-    monkeypatch.setattr(xr.Dataset, "to_netcdf", broken)
+    monkeypatch.setattr(_WindowReader, "read", broken)
     with pytest.raises(OSError, match="disk full"):
-        write_stack(paths, days[:1], target, grid=grid, product=product_info("net_radiation", "days"),
+        write_stack(paths, days[:2], target, grid=grid, product=product_info("net_radiation", "days"),
                     cell_methods="time: mean")
+    assert len(seen) == 1 and seen[0][1] > 0  # the partial file was there, with the layout written
     assert target.read_bytes() == b"previous"
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["a.tif", "stack.nc"]
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["a.tif", "b.tif", "stack.nc"]
 
 
 def test_errors(days_stack, tmp_path):
@@ -206,3 +217,173 @@ def test_errors(days_stack, tmp_path):
         write_stack([tmp_path / "gone.tif"], days[:1], tmp_path / "x.nc", grid=grid, product=product,
                     cell_methods="time: mean")
     assert not (tmp_path / "x.nc").exists()
+
+
+# ---------------------------------------------------------------- values as every reader decodes them
+
+def _ragged_grid():
+    return utm_grid(45, 37, chunk=16)  # 3 x 3 chunks; the last row and column of chunks stick out
+
+
+def _read_back(out, name):
+    """The variable's raw stored values by four independent readers (no masking, no scaling)."""
+    with h5py.File(out, "r") as f:                       # HDF5's own filter pipeline
+        by_hdf5 = f[name][...]
+    with netCDF4.Dataset(out) as nc:                      # netCDF-C
+        nc.set_auto_maskandscale(False)
+        by_netcdf_c = nc[name][...]
+    with xr.open_dataset(out, engine="h5netcdf", mask_and_scale=False) as ds:   # xarray / h5netcdf
+        by_xarray = ds[name].values
+    with rasterio.open(f"netcdf:{out}:{name}") as src:    # GDAL's netCDF driver, one band per time
+        by_gdal = src.read()
+    return {"h5py": by_hdf5, "netCDF4": by_netcdf_c, "xarray": by_xarray, "gdal": by_gdal}
+
+
+def test_ragged_edge_chunks_equal_the_geotiffs(tmp_path):
+    grid = _ragged_grid()
+    rng = np.random.default_rng(7)
+    data = rng.normal(200.0, 50.0, (3,) + grid.shape).astype(np.float32)
+    data[0, 30:, 40:] = np.nan               # NaN inside the bottom-right edge chunk
+    data[2, :5, :] = np.nan                  # and along a whole top row of chunks
+    days = [date(2026, 6, 1) + timedelta(days=i) for i in range(3)]
+    paths = [write_raster(tmp_path / f"rn{i}.tif", grid, a) for i, a in enumerate(data)]
+    out = write_stack(paths, days, tmp_path / "rn.nc", grid=grid, product=product_info("net_radiation", "days"),
+                      cell_methods="time: mean")
+    with rasterio.open(paths[0]) as src:     # the GeoTIFFs as GDAL decodes them are the expectation
+        assert np.array_equal(src.read(1), data[0], equal_nan=True)
+    for reader, values in _read_back(out, "net_radiation").items():
+        assert values.shape == (3, 37, 45), reader
+        assert np.array_equal(values, data, equal_nan=True), reader
+    with h5py.File(out, "r") as f:
+        dset = f["net_radiation"]
+        assert dset.chunks == (1, 16, 16) and dset.id.get_num_chunks() == 3 * 3 * 3
+        assert dset.compression == "gzip" and dset.compression_opts == 4 and dset.shuffle
+
+
+def test_uint8_quality_with_fill_255(tmp_path):
+    grid = _ragged_grid()
+    rng = np.random.default_rng(8)
+    q = rng.integers(0, 64, (2,) + grid.shape).astype(np.uint8)
+    q[0, 20:, 33:] = 255                                  # nodata in the corner edge chunk
+    q[1] = rng.integers(0, 255, grid.shape)               # noise: deflate's output is larger than its input
+    paths = [write_raster(tmp_path / f"q{i}.tif", grid, a, nodata=255) for i, a in enumerate(q)]
+    times = [datetime(2026, 7, 14, 18, 10), datetime(2026, 7, 30, 18, 10)]
+    out = write_stack(paths, times, tmp_path / "quality_scenes.nc", grid=grid,
+                      product=product_info("quality", "scenes"), cell_methods="time: point", flags=QUALITY_BITS)
+    for reader, values in _read_back(out, "quality").items():
+        assert values.dtype == np.uint8, reader
+        np.testing.assert_array_equal(values, q, err_msg=reader)
+    with netCDF4.Dataset(out) as nc:                      # netCDF-C masks the fill value itself
+        var = nc["quality"]
+        assert var._FillValue == 255 and var.dtype == np.uint8
+        np.testing.assert_array_equal(np.ma.getmaskarray(var[...]), q == 255)
+    with rasterio.open(f"netcdf:{out}:quality") as src:
+        assert src.nodata == 255 and src.dtypes[0] == "uint8"
+
+
+def _tree(path):
+    """Every HDF5 object of a file: kind, shape, dtype, chunks, filters, fill value, attributes."""
+    out = {}
+
+    def attrs(obj):
+        return {k: (len(v) if isinstance(v, np.ndarray) and v.dtype == object   # references: how many
+                    else repr(v.tolist() if isinstance(v, np.ndarray) else v))      # repr: nan == nan
+                for k, v in obj.attrs.items() if k != "_NCProperties"}
+
+    def visit(name, obj):
+        if isinstance(obj, h5py.Dataset):
+            pl = obj.id.get_create_plist()
+            out[name] = dict(shape=obj.shape, dtype=obj.dtype.str, chunks=obj.chunks, maxshape=obj.maxshape,
+                             filters=[pl.get_filter(i) for i in range(pl.get_nfilters())],
+                             fill=repr(obj.fillvalue), attrs=attrs(obj))
+        else:
+            out[name] = dict(attrs=attrs(obj))
+
+    with h5py.File(path, "r") as f:
+        out["/"] = dict(attrs=attrs(f))
+        f.visititems(visit)
+    return out
+
+
+def test_same_file_as_xarray_writes_from_the_values(days_stack, tmp_path):
+    """Outside reference: xarray's own to_netcdf (h5netcdf), given our file's values and encodings,
+    writes the same objects, attributes, chunking, filters and fill values, and the same numbers."""
+    _, _, _, out = days_stack
+    reference = tmp_path / "reference.nc"
+    with netCDF4.Dataset(out) as nc:  # variables stored without a fill value keep none
+        unfilled = [k for k, v in nc.variables.items() if "_FillValue" not in v.ncattrs()]
+    with xr.open_dataset(out, engine="h5netcdf") as ds:
+        ds.load()
+        for k in unfilled:
+            ds[k].encoding["_FillValue"] = None
+        ds.to_netcdf(reference, engine="h5netcdf", format="NETCDF4")
+    ours, theirs = _tree(out), _tree(reference)
+    assert ours.keys() == theirs.keys()
+    for name in ours:
+        assert ours[name] == theirs[name], name
+    with xr.open_dataset(out, engine="h5netcdf") as a, xr.open_dataset(reference, engine="h5netcdf") as b:
+        xr.testing.assert_identical(a, b)
+        assert a.net_radiation.encoding["zlib"] and a.net_radiation.encoding["complevel"] == 4
+    with h5py.File(out, "r") as f, h5py.File(reference, "r") as g:
+        assert f["net_radiation"].id.get_num_chunks() == g["net_radiation"].id.get_num_chunks()
+        np.testing.assert_array_equal(f["net_radiation"][...].view(np.uint32),
+                                      g["net_radiation"][...].view(np.uint32))   # bit for bit, NaNs too
+
+
+@pytest.mark.parametrize("kind", ["float32", "uint8"])
+def test_same_file_as_xarray_computing_the_dask_stack(tmp_path, kind):
+    """Outside reference: xarray's to_netcdf (h5netcdf engine) computing the Dask stack of the GeoTIFFs
+    itself, with the same dataset and encoding (how stacks were written before the chunk pool)."""
+    grid = _ragged_grid()
+    rng = np.random.default_rng(9)
+    if kind == "float32":
+        data = rng.normal(5.0, 2.0, (2,) + grid.shape).astype(np.float32)
+        data[1, 33:, :] = np.nan
+        product, nodata, flags = product_info("net_radiation", "scenes"), None, None
+    else:
+        data = rng.integers(0, 40, (2,) + grid.shape).astype(np.uint8)
+        data[1, 33:, :] = 255
+        product, nodata, flags = product_info("quality", "scenes"), 255, QUALITY_BITS
+    paths = [write_raster(tmp_path / f"d{i}.tif", grid, a, nodata=nodata) for i, a in enumerate(data)]
+    times = [datetime(2026, 7, 30, 18, 10), datetime(2026, 7, 14, 18, 10)]  # stored the other way round
+    kwargs = dict(grid=grid, product=product, cell_methods="time: point", flags=flags)
+    out = write_stack(paths, times, tmp_path / "ours.nc", **kwargs)
+    ds, encoding, readers = stack_layout(paths, times, **kwargs)
+    name = product.name
+    stack = da.stack([read_product(r.path, grid, dtype=kind) for r in readers])
+    ds[name] = ds[name].copy(data=stack)
+    with netCDF4.Dataset(out) as nc:
+        ds.attrs["history"] = nc.history  # the one attribute with the clock in it
+    reference = tmp_path / "reference.nc"
+    ds.to_netcdf(reference, engine="h5netcdf", encoding=encoding, format="NETCDF4")
+    ours, theirs = _tree(out), _tree(reference)
+    assert ours == theirs
+    with h5py.File(out, "r") as f, h5py.File(reference, "r") as g:
+        a, b = f[name][...], g[name][...]
+        assert a.dtype == b.dtype == np.dtype(kind)
+        np.testing.assert_array_equal(a.view(f"u{a.dtype.itemsize}"), b.view(f"u{b.dtype.itemsize}"))  # bit for bit
+        np.testing.assert_array_equal(a.view(f"u{a.dtype.itemsize}"), data[::-1].view(f"u{a.dtype.itemsize}"))
+
+
+def test_chunks_stream_with_bounded_memory(tmp_path):
+    """write_chunks asks for a chunk only when few are unwritten (never a whole date in memory)."""
+    grid = utm_grid(64, 64, chunk=8)                      # 64 chunks per date
+    paths = [write_raster(tmp_path / f"m{i}.tif", grid, np.full(grid.shape, i, np.float32)) for i in range(2)]
+    out = tmp_path / "m.nc"
+    write_stack(paths, [date(2026, 1, 1), date(2026, 1, 2)], out, grid=grid,
+                product=product_info("net_radiation", "days"), cell_methods="time: mean")
+    with h5py.File(out, "r") as f:
+        np.testing.assert_array_equal(f["net_radiation"][:, 5, 7], [0, 1])
+    with h5py.File(tmp_path / "k.h5", "w") as f:
+        dset = f.create_dataset("v", shape=(2, 64, 64), dtype="f4", chunks=(1, 8, 8), compression="gzip",
+                                compression_opts=4, shuffle=True, fillvalue=np.nan)
+        lag = []
+
+        def jobs():
+            for k, (t, r, c) in enumerate(itertools.product(range(2), range(0, 64, 8), range(0, 64, 8))):
+                lag.append(k - dset.id.get_num_chunks())  # chunks handed out but not yet written
+                yield (t, r, c), lambda v=float(k): np.full((8, 8), v, np.float32)
+
+        assert write_chunks(dset, jobs(), workers=2, per_worker=2) == 128
+        assert max(lag) <= 4
+        np.testing.assert_array_equal(dset[1, 56:, 56:], 127.0)

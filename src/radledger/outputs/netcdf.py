@@ -1,8 +1,12 @@
 """CF-NetCDF stacks: one product over many dates in one file.
 
-The stack is built lazily from the per-date GeoTIFFs (one grid chunk per Dask
-task, see :func:`radledger.io.lazy.read_product`) and written by xarray with
-the h5netcdf engine, chunk by chunk, zlib-compressed.
+The file's structure (dimensions, coordinates, attributes and the empty chunked,
+zlib-compressed data variable) is written by xarray with the h5netcdf engine;
+the data variable is then filled chunk by chunk: each chunk is read from its
+date's GeoTIFF window and compressed in a thread pool on all cores, and written
+in order as stored bytes (:mod:`radledger.io.h5chunks`).  Readers see the same
+file as if xarray had written the values itself.  At most a few chunks per
+core are in memory.
 
 Layout (CF-1.8)
 ---------------
@@ -20,19 +24,23 @@ Layout (CF-1.8)
 from __future__ import annotations
 
 import os
+import threading
 from datetime import date, datetime, timezone
 from pathlib import Path
 from typing import Mapping, Sequence
 
 import dask.array as da
+import h5py
 import numpy as np
+import rasterio
 import xarray as xr
 from pyproj import CRS
 
 from .._version import __version__
 from ..grid import TargetGrid
 from ..io.atomic import atomic_output
-from ..io.lazy import read_product
+from ..io.h5chunks import write_chunks
+from ..io.lazy import product_reader
 
 __all__ = ["write_stack", "read_stack_hash", "TIME_UNITS", "INTEGER_FILL", "COMPRESSION"]
 
@@ -117,6 +125,24 @@ def write_stack(paths: Sequence[str | os.PathLike], times: Sequence, out_path: s
     pathlib.Path
         ``out_path``.
     """
+    ds, encoding, readers = stack_layout(paths, times, grid=grid, product=product, cell_methods=cell_methods,
+                                         time_bounds=time_bounds, attrs=attrs, flags=flags)
+    out_path = Path(out_path)
+    with atomic_output(out_path) as tmp:
+        _write_layout(ds, tmp, encoding)
+        _fill(tmp, product.name, readers, grid)
+    return out_path
+
+
+def stack_layout(paths, times, *, grid: TargetGrid, product, cell_methods: str, time_bounds=None, attrs=None,
+                 flags=None) -> tuple[xr.Dataset, dict, list]:
+    """What :func:`write_stack` writes, before any value: ``(dataset, encoding, readers)``.
+
+    The dataset's data variable is a stand-in Dask array that is never computed; ``encoding`` is
+    the ``to_netcdf`` encoding of every variable; ``readers`` are the files' window readers
+    (:func:`radledger.io.lazy.product_reader`) in time order.  Same parameters and checks as
+    :func:`write_stack`.
+    """
     if len(paths) == 0:
         raise ValueError("write_stack needs at least one product file")
     if len(paths) != len(times):
@@ -128,8 +154,10 @@ def write_stack(paths: Sequence[str | os.PathLike], times: Sequence, out_path: s
         raise ValueError("write_stack: times must be distinct")
     order = np.argsort(stamps, kind="stable")
     dtype = np.dtype(getattr(product, "dtype", "float32") or "float32")
-    layers = [read_product(paths[i], grid, dtype=dtype) for i in order]
-    data = da.stack(layers)
+    readers = [product_reader(paths[i], grid, dtype=dtype) for i in order]
+    chunks = (1, min(grid.chunk, grid.height), min(grid.chunk, grid.width))
+    # a stand-in for the values, never computed: xarray lays the variable out, write_chunks fills it
+    data = da.empty((len(readers),) + grid.shape, dtype=dtype, chunks=chunks)
 
     var_attrs = {"long_name": product.long_name, "units": product.units, "cell_methods": cell_methods,
                  "grid_mapping": "spatial_ref"}
@@ -143,8 +171,7 @@ def write_stack(paths: Sequence[str | os.PathLike], times: Sequence, out_path: s
     time_attrs = {"standard_name": "time", "long_name": "time (UTC)", "axis": "T"}
     time_encoding = {"units": TIME_UNITS, "calendar": "standard", "dtype": "int64"}
     variables = {product.name: xr.Variable(("time", "y", "x"), data, var_attrs), "spatial_ref": _grid_mapping(grid)}
-    encoding = {product.name: {"dtype": dtype, "_FillValue": fill, **COMPRESSION,
-                               "chunksizes": (1, min(grid.chunk, grid.height), min(grid.chunk, grid.width))},
+    encoding = {product.name: {"dtype": dtype, "_FillValue": fill, **COMPRESSION, "chunksizes": chunks},
                 "time": dict(time_encoding), "x": {"_FillValue": None}, "y": {"_FillValue": None}}
     if time_bounds is not None:
         bnds = np.array([[_as_utc_datetime64(a), _as_utc_datetime64(b)] for a, b in time_bounds],
@@ -160,18 +187,67 @@ def write_stack(paths: Sequence[str | os.PathLike], times: Sequence, out_path: s
     global_attrs = {"title": product.long_name, "source": f"radledger {__version__}",
                     "history": f"{now} radledger {__version__}: stacked {len(paths)} {product.name} products",
                     **dict(attrs or {}), "Conventions": "CF-1.8"}
-    ds = xr.Dataset(variables, coords=coords, attrs=global_attrs)
+    return xr.Dataset(variables, coords=coords, attrs=global_attrs), encoding, readers
 
-    out_path = Path(out_path)
-    with atomic_output(out_path) as tmp:
-        ds.to_netcdf(tmp, engine="h5netcdf", encoding=encoding, format="NETCDF4")
-    return out_path
+
+def _write_layout(ds: xr.Dataset, path: Path, encoding: dict) -> None:
+    """Everything of ``ds`` but its Dask-backed values: what ``to_netcdf(engine="h5netcdf")`` writes
+    before it computes them (the same store, encoding and checks; no chunk of them stored)."""
+    store = xr.backends.H5NetCDFStore.open(str(path), mode="w", format="NETCDF4")
+    try:
+        ds.dump_to_store(store, encoding=encoding)  # Dask-backed values are only queued, never run
+    finally:
+        store.close()
+
+
+class _OpenFiles:
+    """The file each worker thread read last, kept open for its next window (a grid chunk is often
+    smaller than a GeoTIFF's tiles); all are closed by :meth:`close`, after the workers stopped."""
+
+    def __init__(self):
+        self._local = threading.local()
+        self._open: list = []
+        self._lock = threading.Lock()
+
+    def read(self, reader, window) -> np.ndarray:
+        src = getattr(self._local, "src", None)
+        if src is None or self._local.path != reader.path:
+            if src is not None:
+                with self._lock:
+                    self._open.remove(src)
+                src.close()
+                self._local.src = None
+            src = rasterio.open(reader.path)
+            with self._lock:
+                self._open.append(src)
+            self._local.src, self._local.path = src, reader.path
+        return reader.read(src, window)
+
+    def close(self) -> None:
+        with self._lock:
+            for src in self._open:
+                src.close()
+            self._open.clear()
+
+
+def _fill(path: Path, name: str, readers: list, grid: TargetGrid) -> None:
+    """Write every chunk of the (time, y, x) variable ``name``: date after date, row-major windows."""
+    files = _OpenFiles()
+
+    def jobs():
+        for t, reader in enumerate(readers):
+            for w in grid.windows():
+                yield (t, w.row_off, w.col_off), lambda r=reader, w=w: files.read(r, w)
+
+    try:
+        with h5py.File(path, "r+") as f:
+            write_chunks(f[name], jobs())
+    finally:
+        files.close()
 
 
 def read_stack_hash(path: str | os.PathLike) -> str | None:
     """The ``settings_hash`` global attribute of a stack (None when absent or the file unreadable)."""
-    import h5py
-
     try:
         with h5py.File(path, "r") as f:
             value = f.attrs.get("settings_hash")
