@@ -131,3 +131,12 @@ def test_inputs_on_the_store_give_the_local_products_and_a_changed_object_is_rec
     put(tmp_path / "albedo2.tif", "in/albedo.tif")
     report = run_config(load_config(scn.config))
     assert got in report.written and not np.array_equal(np.nan_to_num(read(got)), np.nan_to_num(local))
+
+
+def test_out_on_the_command_line_may_name_an_s3_prefix(tmp_path, bucket, capsys, monkeypatch):
+    scn = make_scenario(tmp_path, shape=(32, 32), chunk=32)
+    scn.write_config(**{"output.products": ["net_radiation"]})
+    monkeypatch.chdir(tmp_path)
+    assert main(["run", "--quiet", "--out", f"s3://{bucket}/chosen", str(scn.config)]) == 0, capsys.readouterr().err
+    assert list_objects(f"/vsis3/{bucket}/chosen") == ["scenes/net_radiation_20260714T1810.tif"]
+    assert not (tmp_path / "s3:").exists()

@@ -130,11 +130,15 @@ def run_config(cfg: Config, *, overwrite: bool = False, scheduler: str | None = 
     finally:
         engine.close()
         try:
-            stopped = not isinstance(sys.exc_info()[1], (Exception, type(None)))   # Ctrl-C, SIGTERM
-            if store is not None and lock.held and not stopped:   # what is finished goes to the store
-                with gdal_env():
-                    sent, same = store.push()
-                events.stage_done(f"uploaded to {cfg.output.store}", len(sent), len(same))
+            in_flight = sys.exc_info()[1]
+            if store is not None and lock.held and isinstance(in_flight, (Exception, type(None))):
+                try:                  # what is finished goes to the store (not after Ctrl-C or SIGTERM)
+                    with gdal_env():
+                        sent, same = store.push()
+                    events.stage_done(f"uploaded to {cfg.output.store}", len(sent), len(same))
+                except Exception:
+                    if in_flight is None:
+                        raise         # else the run's own failure is the one to report
         finally:
             lock.release()
         if failed:

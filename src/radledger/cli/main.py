@@ -219,14 +219,14 @@ def _dispatch(args) -> int:
     from ..runner import run_config
     events = WarningsOnly() if args.quiet else ConsoleEvents()
     if args.command == "demo":
-        cfg = load_config(demo_config(), output_override=os.path.abspath(_text_argument(args.out, "--out")))
+        cfg = load_config(demo_config(), output_override=_out_folder(_text_argument(args.out, "--out")))
         report = run_config(cfg, overwrite=args.overwrite, events=events, on_wait=_say_waiting)
         if not args.quiet:
             where_everything_went(report)
         return 0
     if (args.scheduler or os.environ.get("DASK_SCHEDULER_ADDRESS")) and not args.debug:
         _quiet_cluster_logs()
-    out = os.path.abspath(_text_argument(args.out, "--out")) if args.out else None
+    out = _out_folder(_text_argument(args.out, "--out")) if args.out else None
     cfg = load_config(_text_argument(args.config, "config"), output_override=out)
     run_config(cfg, overwrite=args.overwrite, scheduler=args.scheduler, force=args.force, events=events,
                on_wait=_say_waiting)
@@ -235,3 +235,8 @@ def _dispatch(args) -> int:
 
 if __name__ == "__main__":
     sys.exit(main())
+
+
+def _out_folder(text: str) -> str:
+    """``--out DIR``: a local folder as an absolute path; an ``s3://`` prefix as given."""
+    return text if text.startswith(("s3://", "/vsis3/")) else os.path.abspath(text)

@@ -188,7 +188,8 @@ def output(v, value) -> OutputSpec:
         if value.get("staging") is not None:
             v.fail("output.staging", "only for an s3:// output.directory; remove it")
         d = Path(os.path.expanduser(directory))
-        d = d if d.is_absolute() else v.base / d
+        # a folder the user gives on the command line (--out) is relative to the current folder
+        d = d if d.is_absolute() else (Path.cwd() if v.output_override is not None else v.base) / d
     products = value.get("products", list(OutputSpec.products))
     if isinstance(products, str):
         products = [products]
