@@ -184,3 +184,25 @@ def test_stage_titles_and_labels_from_the_product_tags(tmp_path):
     args = _quicklook_args(count)
     assert args["counts"] == 8 and args["units"] == "valid dates" and not args["label"]
     assert "valid dates" in args["title"] and "2026-06-01 to 2026-08-31" in args["title"]
+
+
+def test_many_quicklooks_drawn_by_worker_processes_equal_those_drawn_here(tmp_path):
+    """A season's PNGs go to worker processes; each must be the same image as one drawn in this
+    process (the comparison is pixel by pixel, decoded by PIL)."""
+    from radledger.config import load_config
+    from radledger.runner import run_config
+    from radledger.stages.quicklooks import PARALLEL_FROM, _draw_all
+    from scenario import make_scenario
+
+    scn = make_scenario(tmp_path / "scene", shape=(48, 64), chunk=32)
+    products = run_config(load_config(scn.config)).written
+    tifs = [str(p) for p in products] * (PARALLEL_FROM // len(products) + 1)
+    here, there = tmp_path / "here", tmp_path / "there"
+    here.mkdir(), there.mkdir()
+    _draw_all([(t, str(here / f"{k}.png")) for k, t in enumerate(tifs[:len(products)])], None)   # in here
+    _draw_all([(t, str(there / f"{k}.png")) for k, t in enumerate(tifs)], None)
+    assert len(list(there.glob("*.png"))) == len(tifs) >= PARALLEL_FROM
+    for k in range(len(products)):
+        a = np.asarray(Image.open(here / f"{k}.png"))
+        b = np.asarray(Image.open(there / f"{k}.png"))
+        np.testing.assert_array_equal(a, b)

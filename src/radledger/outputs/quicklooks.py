@@ -318,7 +318,9 @@ def _frame(ax, extent, aspect, lat_range, xlabel, ylabel):
 
 def _save(fig, png_path: Path) -> Path:
     with atomic_output(png_path) as tmp:
-        fig.savefig(tmp, format="png", dpi=DPI, metadata={"Software": f"radledger {__version__}"})
+        # zlib level 1: PNG encoding was a third of a quicklook's time at PIL's default (6); ~1.2x larger
+        fig.savefig(tmp, format="png", dpi=DPI, metadata={"Software": f"radledger {__version__}"},
+                    pil_kwargs={"compress_level": 1})
     return png_path
 
 

@@ -8,6 +8,9 @@ files), and with ``methods.terrain`` each scene with a given shortwave gets
 
 from __future__ import annotations
 
+import multiprocessing
+import os
+from concurrent.futures import ProcessPoolExecutor
 from pathlib import Path
 
 from affine import Affine
@@ -72,19 +75,53 @@ def run_quicklooks(plan: Plan, products: list[Path], *, overwrite: bool = False)
     zones_file = plan.cfg.zones.path if plan.cfg.zones is not None else None
     zones = _Zones(plan)
     (plan.out / "quicklooks").mkdir(parents=True, exist_ok=True)
-    written, kept = [], []
+    written, kept, todo = [], [], []
     for path in sorted({p for p in products if p.suffix == ".tif" and not p.stem.startswith("horizon_")}):
         png = plan.out / "quicklooks" / f"{path.stem}.png"
         if _current(png, (path, zones_file), overwrite):
             kept.append(png)
             continue
-        write_quicklook(str(path), str(png), zones=zones.get(), **_quicklook_args(path))
-        written.append(png)
+        todo.append((str(path), str(png)))
+    _draw_all(todo, zones.get() if todo else None)
+    written += [Path(png) for _, png in todo]
     if plan.cfg.methods.terrain != "none":
         w, k = _terrain_effects(plan, zones, zones_file, overwrite)
         written += w
         kept += k
     return written, kept
+
+
+#: quicklooks drawn by one process before the rest are shared with worker processes (each worker
+#: costs ~0.5 s to start: matplotlib's import)
+PARALLEL_FROM = 12
+
+
+def _draw_one(tif: str, png: str, zones) -> None:
+    write_quicklook(tif, png, zones=zones, **_quicklook_args(Path(tif)))
+
+
+def _draw_all(todo: list[tuple[str, str]], zones) -> None:
+    """Draw every (product, PNG) pair; many of them on every core.
+
+    Matplotlib draws under Python's global lock, so threads would not help: a season's PNGs go to
+    worker processes (started by a fork server, not forked from this process and its threads).
+    """
+    workers = min(os.cpu_count() or 1, 4, len(todo) // (PARALLEL_FROM // 2) or 1)
+    if len(todo) < PARALLEL_FROM or workers < 2:
+        for tif, png in todo:
+            _draw_one(tif, png, zones)
+        return
+    context = multiprocessing.get_context("forkserver" if "forkserver" in multiprocessing.get_all_start_methods()
+                                          else "spawn")
+    with ProcessPoolExecutor(max_workers=workers, mp_context=context) as pool:
+        futures = [pool.submit(_draw_one, tif, png, zones) for tif, png in todo]
+        try:
+            for f in futures:
+                f.result()
+        except BaseException:
+            for f in futures:
+                f.cancel()
+            raise
 
 
 class _Zones:
