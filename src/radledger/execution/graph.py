@@ -13,7 +13,9 @@ cluster.  Building the graph computes nothing.
 
 from __future__ import annotations
 
+import os
 import warnings
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
@@ -37,6 +39,9 @@ from .engine import Engine
 
 __all__ = ["job_graph", "batch_graph", "run_job", "compute_batch", "PendingBatch", "JobResult",
            "chunk_products", "ValueSummary", "FlagSummary", "target_product"]
+
+#: products whose COG passes run at once, one per core
+FINISH_THREADS = min(4, os.cpu_count() or 1)
 
 
 @dataclass(frozen=True)
@@ -244,12 +249,22 @@ class PendingBatch:
     files: list[list[ProductFile]]
 
     def finish(self) -> list[JobResult]:
+        """Each product's COG pass.  With several products, one pass per core, each on one thread:
+        GDAL's own threads (one pass on every core) spend ~1.6x the CPU on the same work."""
+        every = [f for files in self.files for f in files]
         try:
-            for result, files in zip(self.results, self.files):
-                result.written = [f.finish() for f in files]
+            if len(every) > 1 and FINISH_THREADS > 1:
+                with ThreadPoolExecutor(FINISH_THREADS, thread_name_prefix="radledger_cog") as pool:
+                    done = list(pool.map(lambda f: f.finish(threads="1"), every))
+            else:
+                done = [f.finish() for f in every]
         except BaseException:
             self.abort()
             raise
+        k = 0
+        for result, files in zip(self.results, self.files):
+            result.written = done[k:k + len(files)]
+            k += len(files)
         return self.results
 
     def abort(self) -> None:

@@ -273,17 +273,18 @@ class ProductFile:
                 _check_tiles(sink.path, sink.touched)
 
     # -- stage 2: one compression pass into a COG, checked, then renamed into place
-    def finish(self) -> Path:
+    def finish(self, *, threads: str = "ALL_CPUS") -> Path:
+        """The COG pass (GDAL's compression on ``threads``), checked, renamed into place."""
         try:
             self.close_intermediate(check=True)
-            opts = cog_options(self.compression, categorical=self.categorical)
+            opts = dict(cog_options(self.compression, categorical=self.categorical), NUM_THREADS=threads)
             source = self.intermediate
             if self.in_task:
                 self._coarser_levels()
                 self._write_vrt()
                 source = self.vrt
                 opts["OVERVIEWS"] = "FORCE_USE_EXISTING"
-            with gdal_failures(self.partial_cog), gdal_env(GDAL_NUM_THREADS="ALL_CPUS"):
+            with gdal_failures(self.partial_cog), gdal_env(GDAL_NUM_THREADS=threads):
                 try:
                     rasterio.shutil.copy(source, self.partial_cog, driver="COG", **opts)
                 except SystemError as exc:   # rasterio: GDAL returned nothing and said nothing
