@@ -155,7 +155,7 @@ def test_rerun_reuses_the_grids_and_a_changed_row_regrids_only_its_date(tmp_path
     run_config(load_config(scn.config))
     heard = _Heard()
     report = run_config(load_config(scn.config), events=heard)
-    assert ("weather", 1, 8) in heard.stages          # only cross_validation.csv rewritten
+    assert ("weather", 0, 9) in heard.stages          # 8 grids and cross_validation.csv kept
     assert not [p for p in report.written if p.suffix == ".tif"]
     table = scn.folder / "stations.csv"
     lines = table.read_text().splitlines()
@@ -165,6 +165,7 @@ def test_rerun_reuses_the_grids_and_a_changed_row_regrids_only_its_date(tmp_path
     lines[i] = ",".join(parts)
     table.write_text("\n".join(lines) + "\n")
     report = run_config(load_config(scn.config))
+    assert scn.folder / "out" / "weather" / "cross_validation.csv" in report.written   # its date changed
     rewritten = sorted(p.name for p in report.written if p.suffix == ".tif")
     assert rewritten == sorted([f"air_temperature_max_{STAMP[DATES[1]]}.tif"] +
                                [f"{p}_{STAMP[DATES[1]]}.tif" for p in

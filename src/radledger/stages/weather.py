@@ -18,18 +18,21 @@ from dask.base import tokenize
 
 from ..errors import InputError
 from ..execution.engine import Engine
+from ..io.atomic import atomic_output
 from ..io.cog import ProductFile, is_current, read_tags
 from ..model.products import Product
 from ..outputs.weather import (WEATHER_NAMES, CrossValidationRow, gridding_tags, predict_chunk,
                                write_cross_validation)
 from ..planning.plan import Plan
-from ..planning.provenance import product_tags
+from ..planning.provenance import product_tags, settings_hash
 from ..planning.stations import WeatherGrid, weather_grids
 from ..stations.gridding import CrossValidation, fit_field, leave_one_out
 
 __all__ = ["run_weather", "CROSS_VALIDATION_FILE"]
 
 CROSS_VALIDATION_FILE = "cross_validation.csv"
+#: the hash of the grids the table was made for (a rerun with the same grids keeps the table)
+CROSS_VALIDATION_RECORD = ".radledger-cross-validation"
 
 
 def run_weather(plan: Plan, engine: Engine, *, overwrite: bool) -> tuple[list[Path], list[Path]]:
@@ -42,8 +45,22 @@ def run_weather(plan: Plan, engine: Engine, *, overwrite: bool) -> tuple[list[Pa
     # every field is fitted before any grid is written: a date the stations cannot grid stops the run clean
     fields = [fit_field(g.x, g.y, g.z, g.v, g.method, label=g.label) for g in todo]
     written = [write_weather_grid(plan, g, engine, field=f) for g, f in zip(todo, fields)]
-    table = write_cross_validation([_cv_row(g) for g in grids], plan.out / "weather" / CROSS_VALIDATION_FILE)
+    table = plan.out / "weather" / CROSS_VALIDATION_FILE
+    record = plan.out / "weather" / CROSS_VALIDATION_RECORD
+    key = settings_hash("cross validation", sorted(g.settings_hash for g in grids))
+    if not overwrite and table.exists() and _recorded(record) == key:      # same grids: same table
+        return written, skipped + [table]
+    write_cross_validation([_cv_row(g) for g in grids], table)
+    with atomic_output(record) as tmp:
+        Path(tmp).write_text(key, encoding="utf-8")
     return written + [table], skipped
+
+
+def _recorded(path: Path) -> str | None:
+    try:
+        return path.read_text(encoding="utf-8").strip()
+    except OSError:
+        return None
 
 
 def _cross_validate(g: WeatherGrid) -> CrossValidation | None:
