@@ -140,3 +140,17 @@ def test_out_on_the_command_line_may_name_an_s3_prefix(tmp_path, bucket, capsys,
     assert main(["run", "--quiet", "--out", f"s3://{bucket}/chosen", str(scn.config)]) == 0, capsys.readouterr().err
     assert list_objects(f"/vsis3/{bucket}/chosen") == ["scenes/net_radiation_20260714T1810.tif"]
     assert not (tmp_path / "s3:").exists()
+
+
+
+def test_a_bucket_that_cannot_be_reached_is_one_line_and_a_rerun_after_creating_it_only_uploads(
+        tmp_path, bucket, store, capsys):
+    scn = make_scenario(tmp_path, shape=(32, 32), chunk=32)
+    scn.write_config(**{"output.directory": f"s3://{bucket}-later/run", "output.products": ["net_radiation"]})
+    assert main(["run", "--quiet", str(scn.config)]) == 2
+    err = capsys.readouterr().err
+    assert "cannot copy" in err and f"{bucket}-later" in err and "credentials" in err and "Traceback" not in err
+    urllib.request.urlopen(urllib.request.Request(f"http://{store}/{bucket}-later", method="PUT")).close()
+    report = run_config(load_config(scn.config))
+    assert report.written == []                           # computed before; now only uploaded
+    assert list_objects(f"/vsis3/{bucket}-later/run") == ["scenes/net_radiation_20260714T1810.tif"]
