@@ -196,8 +196,8 @@ def _cached(path: str, raw: bool):
     return cache[key]
 
 
-def _block(path: str, variable: str, raw: bool, steps, rows: slice, cols: slice) -> np.ndarray:
-    """float64 values of ``variable`` at ``steps`` (an index or a list), ``rows`` and ``cols``:
+def _block(path: str, variable: str, raw: bool, steps: list, rows: slice, cols: slice) -> np.ndarray:
+    """float64 values of ``variable`` at ``steps`` (a list: a 3-D result), ``rows`` and ``cols``:
     CF-decoded, or the stored numbers when ``raw`` (the config's own decoding follows).
 
     NetCDF-4 files are read with h5py directly (xarray's indexing would import dask.array and
@@ -206,7 +206,7 @@ def _block(path: str, variable: str, raw: bool, steps, rows: slice, cols: slice)
     handle = open_hdf5(path)
     if handle is not None and variable in handle:
         var = handle[variable]
-        if isinstance(steps, list) and steps != sorted(set(steps)):
+        if steps != sorted(set(steps)):            # h5py reads increasing indices only
             stored = np.stack([var[s, rows, cols] for s in steps])
         else:
             stored = var[steps, rows, cols]
@@ -289,12 +289,7 @@ class StackSource:
         """A small decoded sample of the first step (a strided read), cheap whatever the stack's size."""
         h, w = self.info.shape
         step = max(1, math.ceil(max(h, w) / max_pixels))
-        a = _block(self.path, self.variable, self.raw, self.steps[0], slice(None, None, step),
-                   slice(None, None, step))
-        if self.raw:
-            if self.nodata is not None:
-                a[a == self.nodata] = np.nan
-            a = a * (1.0 if self.scale is None else self.scale) + (self.offset or 0.0)
+        a = self._values([self.steps[0]], slice(None, None, step), slice(None, None, step))[0]
         return (a * self.factor + self.shift).astype(np.float32)
 
     def overlaps(self, grid: TargetGrid) -> bool:
@@ -335,18 +330,32 @@ class StackSource:
         (a0, a1, b0, b1), index, data = memo.slabs[key]
         if not (a0 <= r0 and r1 <= a1 and b0 <= c0 and c1 <= b1) or any(s not in index for s in self.steps):
             return self._slab(r0, r1, c0, c1)
-        total = None
-        for step, weight in zip(self.steps, self.weights):
-            a = data[index[step], r0 - a0:r1 - a0, c0 - b0:c1 - b0]
-            total = a * weight if total is None else total + a * weight
-        return total.astype(np.float32)
+        return self._weighted(data[:, r0 - a0:r1 - a0, c0 - b0:c1 - b0], index)
 
     def _read_steps(self, steps, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
         """Decoded float64 values of several steps of the slab, in one request."""
+        return self._values(list(steps), slice(r0, r1), slice(c0, c1))
+
+    def _slab(self, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
+        data = self._read_steps(self.steps, r0, r1, c0, c1)
+        return self._weighted(data, {s: i for i, s in enumerate(self.steps)})
+
+    def _weighted(self, data: np.ndarray, index: dict) -> np.ndarray:
+        """This date's value: the weighted sum of its steps (``index``: step -> position in ``data``)."""
+        total = None
+        for step, weight in zip(self.steps, self.weights):
+            a = data[index[step]]
+            total = a * weight if total is None else total + a * weight
+        return total.astype(np.float32)
+
+    def _values(self, steps: list, rows: slice, cols: slice) -> np.ndarray:
+        """float64 values of ``steps``: CF-decoded, or with the config's own decoding (stored == nodata
+        missing, then stored * scale + offset)."""
         try:
-            a = _block(self.path, self.variable, self.raw, list(steps), slice(r0, r1), slice(c0, c1))
+            a = _block(self.path, self.variable, self.raw, steps, rows, cols)
         except Exception as exc:
-            raise InputError(f"{self.path}: reading {self.variable} steps {steps[0]}..{steps[-1]} failed "
+            which = f"step {steps[0]}" if len(steps) == 1 else f"steps {steps[0]}..{steps[-1]}"
+            raise InputError(f"{self.path}: reading {self.variable} {which} failed "
                              f"({exc.__class__.__name__}: {' '.join(str(exc).split())[:160]}); the file may "
                              f"be truncated or corrupt") from None
         if self.raw:
@@ -354,19 +363,3 @@ class StackSource:
                 a[a == self.nodata] = np.nan
             a = a * (1.0 if self.scale is None else self.scale) + (self.offset or 0.0)
         return a
-
-    def _slab(self, r0: int, r1: int, c0: int, c1: int) -> np.ndarray:
-        total = None
-        for step, weight in zip(self.steps, self.weights):
-            try:
-                a = _block(self.path, self.variable, self.raw, step, slice(r0, r1), slice(c0, c1))
-            except Exception as exc:
-                raise InputError(f"{self.path}: reading {self.variable} step {step} failed "
-                                 f"({exc.__class__.__name__}: {' '.join(str(exc).split())[:160]}); the file may "
-                                 f"be truncated or corrupt") from None
-            if self.raw:
-                if self.nodata is not None:
-                    a[a == self.nodata] = np.nan
-                a = a * (1.0 if self.scale is None else self.scale) + (self.offset or 0.0)
-            total = a * weight if total is None else total + a * weight
-        return total.astype(np.float32)
