@@ -405,10 +405,10 @@ def test_a_season_gets_one_long_zone_table_and_a_rerun_redoes_only_tables_whose_
             inside = shapely.contains_xy(polygons[r["basin"]], cx, cy)
             assert float(r["mean"]) == pytest.approx(np.nanmean(values[inside]), rel=1e-5)
     # an unchanged rerun keeps every table (not rewritten), a redone day redoes its table and the long one
-    before = {p.name: p.stat().st_mtime_ns for p in zones.glob("*.csv")}
+    before = {p.name: p.stat().st_mtime_ns for p in [*zones.glob("*.csv"), zones / ".radledger-zones.json"]}
     report = run_config(load_config(cfg))
     assert not [p for p in report.written if p.parent == zones]
-    assert {p.name: p.stat().st_mtime_ns for p in zones.glob("*.csv")} == before
+    assert {p.name: p.stat().st_mtime_ns for p in [*zones.glob("*.csv"), zones / ".radledger-zones.json"]} == before
     # a lost day table is made again (from the same product: the long table stays as it is)
     (zones / "net_radiation_20260603.csv").unlink()
     report = run_config(load_config(cfg))

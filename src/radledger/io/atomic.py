@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import os
 from contextlib import contextmanager
 from pathlib import Path
@@ -11,7 +12,7 @@ from ..errors import DiskFullError, OutputError
 from .lock import PARTIAL_MARK, partial_token
 from .space import write_failure
 
-__all__ = ["atomic_output", "fsync_file"]
+__all__ = ["atomic_output", "fsync_file", "read_record", "write_record"]
 
 
 def fsync_file(path: str | os.PathLike) -> None:
@@ -64,3 +65,18 @@ def _size(path: Path) -> int:
         return path.stat().st_size
     except OSError:
         return 0
+
+
+def read_record(path: str | os.PathLike) -> dict:
+    """A small JSON object kept beside outputs (what they were made from); {} if missing or unreadable."""
+    try:
+        record = json.loads(Path(path).read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return {}
+    return record if isinstance(record, dict) else {}
+
+
+def write_record(path: str | os.PathLike, record: dict) -> None:
+    """Write ``record`` as JSON, whole or not at all."""
+    with atomic_output(path) as tmp:
+        Path(tmp).write_text(json.dumps(record, indent=1, sort_keys=True), encoding="utf-8")

@@ -20,12 +20,11 @@ are uploaded.
 from __future__ import annotations
 
 import ctypes
-import json
 from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import OutputError
-from .atomic import atomic_output
+from .atomic import atomic_output, read_record, write_record
 from .gdalapi import _gdal, remote_headers
 
 __all__ = ["store_root", "is_store_url", "StoreMirror", "RECORD", "default_staging", "list_objects"]
@@ -107,15 +106,10 @@ class StoreMirror:
         return store_root(self.url)
 
     def _record(self) -> dict:
-        try:
-            data = json.loads((self.staging / RECORD).read_text(encoding="utf-8"))
-        except (OSError, ValueError):
-            return {}
-        return data if isinstance(data, dict) else {}
+        return read_record(self.staging / RECORD)
 
     def _save(self, record: dict) -> None:
-        with atomic_output(self.staging / RECORD) as tmp:
-            Path(tmp).write_text(json.dumps(record, indent=0, sort_keys=True), encoding="utf-8")
+        write_record(self.staging / RECORD, record)
 
     @staticmethod
     def _state(path: Path) -> list:

@@ -18,7 +18,7 @@ from dask.base import tokenize
 
 from ..errors import InputError
 from ..execution.engine import Engine
-from ..io.atomic import atomic_output
+from ..io.atomic import read_record, write_record
 from ..io.cog import ProductFile, is_current, read_tags
 from ..model.products import Product
 from ..outputs.weather import (WEATHER_NAMES, CrossValidationRow, gridding_tags, predict_chunk,
@@ -32,7 +32,7 @@ __all__ = ["run_weather", "CROSS_VALIDATION_FILE"]
 
 CROSS_VALIDATION_FILE = "cross_validation.csv"
 #: the hash of the grids the table was made for (a rerun with the same grids keeps the table)
-CROSS_VALIDATION_RECORD = ".radledger-cross-validation"
+CROSS_VALIDATION_RECORD = ".radledger-cross-validation.json"
 
 
 def run_weather(plan: Plan, engine: Engine, *, overwrite: bool) -> tuple[list[Path], list[Path]]:
@@ -48,19 +48,11 @@ def run_weather(plan: Plan, engine: Engine, *, overwrite: bool) -> tuple[list[Pa
     table = plan.out / "weather" / CROSS_VALIDATION_FILE
     record = plan.out / "weather" / CROSS_VALIDATION_RECORD
     key = settings_hash("cross validation", sorted(g.settings_hash for g in grids))
-    if not overwrite and table.exists() and _recorded(record) == key:      # same grids: same table
-        return written, skipped + [table]
+    if not overwrite and table.exists() and read_record(record).get(CROSS_VALIDATION_FILE) == key:
+        return written, skipped + [table]                                   # same grids: same table
     write_cross_validation([_cv_row(g) for g in grids], table)
-    with atomic_output(record) as tmp:
-        Path(tmp).write_text(key, encoding="utf-8")
+    write_record(record, {CROSS_VALIDATION_FILE: key})
     return written + [table], skipped
-
-
-def _recorded(path: Path) -> str | None:
-    try:
-        return path.read_text(encoding="utf-8").strip()
-    except OSError:
-        return None
 
 
 def _cross_validate(g: WeatherGrid) -> CrossValidation | None:

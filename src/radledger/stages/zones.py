@@ -9,12 +9,11 @@ at a time (each chunk's zone labels burnt once for all of them).
 
 from __future__ import annotations
 
-import json
 from dataclasses import dataclass
 from pathlib import Path
 
 from ..execution.engine import Engine
-from ..io.atomic import atomic_output
+from ..io.atomic import read_record, write_record
 from ..io.cog import read_tags
 from ..io.lazy import read_product
 from ..io.vectors import read_zones
@@ -72,30 +71,19 @@ def _warn_off_grid(plan: Plan, zones, engine: Engine) -> None:
                            f"the rest as not valid and area_km2 is the whole polygon's")
 
 
-def _read_record(path: Path) -> dict:
-    try:
-        record = json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, ValueError):
-        return {}
-    return record if isinstance(record, dict) else {}
-
-
-def _write_record(path: Path, record: dict) -> None:
-    with atomic_output(path) as tmp:
-        Path(tmp).write_text(json.dumps(record, indent=1, sort_keys=True), encoding="utf-8")
-
-
 def run_zones(plan: Plan, engine: Engine, *, overwrite: bool = False) -> tuple[list[Path], list[Path]]:
     """The zone tables that are not current, then the season tables; (written, kept) paths."""
     z = plan.cfg.zones
     folder = plan.out / "zones"
     record_path = folder / ZONES_RECORD
-    record = {} if overwrite else _read_record(record_path)
+    record = {} if overwrite else read_record(record_path)
+    before = dict(record)
     made_from = [file_fingerprint(str(z.path)), z.id, z.weighting, plan.grid.identity]
     targets = _targets(plan)
     keys = {t.table: settings_hash(made_from, read_tags(t.product).get("settings_hash")) for t in targets}
     todo = [t for t in targets if record.get(t.table) != keys[t.table] or not (folder / t.table).exists()]
-    written, kept = [], [folder / t.table for t in targets if t not in todo]
+    redo = {t.table for t in todo}
+    written, kept = [], [folder / t.table for t in targets if t.table not in redo]
     folder.mkdir(parents=True, exist_ok=True)
     if todo:
         zones = read_zones(z.path, z.id, plan.grid)
@@ -113,9 +101,10 @@ def run_zones(plan: Plan, engine: Engine, *, overwrite: bool = False) -> tuple[l
             for t, rows in zip(group, tables):
                 written.append(write_zone_csv(rows, folder / t.table, z.id))
                 record[t.table] = keys[t.table]
-            _write_record(record_path, record)     # a failure later keeps what is done
+            write_record(record_path, record)      # a failure later keeps what is done
     w, k = _season_tables(targets, folder, record, z.id)
-    _write_record(record_path, record)
+    if record != before or not record_path.exists():     # an unchanged rerun leaves the record as it was
+        write_record(record_path, record)
     return written + w, kept + k
 
 
