@@ -85,10 +85,11 @@ def run_config(cfg: Config, *, overwrite: bool = False, scheduler: str | None = 
     ``on_wait`` hears, once, that another run holds the output folder and this one waits for it.
     """
     events = events or RunEvents()
+    waiting = on_wait or getattr(events, "waiting", None)
     t0 = time.monotonic()
     store = StoreMirror(cfg.output.staging, cfg.output.store) if cfg.output.store else None
     if store is not None:              # objects of earlier runs: the plan then keeps the current ones
-        with _locked(cfg.output.directory, on_wait or getattr(events, "waiting", None)), gdal_env():
+        with _locked(cfg.output.directory, waiting), gdal_env():
             pulled = store.pull()
         if pulled:
             events.stage_done(f"copied from {cfg.output.store}", len(pulled), 0)
@@ -106,7 +107,7 @@ def run_config(cfg: Config, *, overwrite: bool = False, scheduler: str | None = 
     failed = True
     try:
         try:
-            lock.acquire(on_wait=on_wait or getattr(events, "waiting", None))
+            lock.acquire(on_wait=waiting)
         except OSError as exc:       # the folder or its lock file cannot be made (no space, no inodes, ...)
             raise write_failure(lock.path, exc) from None
         before = _entries(out)
@@ -292,9 +293,8 @@ def _remove_created(created: list[Path]) -> None:
 
 @contextmanager
 def _locked(folder: Path, on_wait) -> Iterator[None]:
-    """Hold ``folder``'s run lock for the block (made if missing)."""
+    """Hold ``folder``'s run lock for the block (the folder is made if missing)."""
     lock = RunLock(folder)
-    folder.mkdir(parents=True, exist_ok=True)
     lock.acquire(on_wait=on_wait)
     try:
         yield

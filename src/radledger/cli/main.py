@@ -233,10 +233,12 @@ def _dispatch(args) -> int:
     return 0
 
 
-if __name__ == "__main__":
-    sys.exit(main())
-
-
 def _out_folder(text: str) -> str:
     """``--out DIR``: a local folder as an absolute path; an ``s3://`` prefix as given."""
-    return text if text.startswith(("s3://", "/vsis3/")) else os.path.abspath(text)
+    from ..io.objectstore import is_store_url
+
+    return text if is_store_url(text) else os.path.abspath(text)
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -26,6 +26,7 @@ from pathlib import Path
 from ..errors import OutputError
 from .atomic import atomic_output, read_record, write_record
 from .gdalapi import _gdal, remote_headers
+from .paths import gdal_path
 
 __all__ = ["store_root", "is_store_url", "StoreMirror", "RECORD", "default_staging", "list_objects"]
 
@@ -40,8 +41,7 @@ def is_store_url(text: str) -> bool:
 
 def store_root(url: str) -> str:
     """``s3://bucket/prefix`` (or ``/vsis3/bucket/prefix``) as GDAL's ``/vsis3/bucket/prefix``."""
-    path = url[len("s3://"):] if url.startswith("s3://") else url[len("/vsis3/"):]
-    return "/vsis3/" + path.strip("/")
+    return gdal_path(url).rstrip("/")
 
 
 def _lib():

@@ -18,6 +18,7 @@ from rasterio.windows import Window
 
 from ..grid import TargetGrid
 from ..io.cog import read_tags
+from ..io.paths import is_remote
 from ..io.vectors import read_zones
 from ..kinds import TimeKind
 from ..outputs.quicklooks import read_decimated, write_quicklook, write_side_by_side
@@ -144,7 +145,7 @@ def _current(png: Path, sources, overwrite: bool) -> bool:
         return False
     made = png.stat().st_mtime_ns
     for src in sources:
-        if src is None or "://" in str(src):
+        if src is None or is_remote(str(src)):
             continue
         try:
             if Path(src).stat().st_mtime_ns > made:
