@@ -93,6 +93,13 @@ def _write_stacks(folder, *, zarr=False):
     return path.name, w, lons, lats
 
 
+def _stack_day(name, start, end):
+    """A days: entry over [start, end] taking every input from the stack _write_stacks made."""
+    return {"dates": {"start": start, "end": end}, **{layer: {"path": name, "variable": var} for layer, var in
+            (("shortwave_down", "rsds"), ("air_temperature_max", "tmax"), ("air_temperature_min", "tmin"),
+             ("vapour_pressure", "vp"))}}
+
+
 def _static(folder):
     f = fields(SHAPE)
     write_tif(folder / "lc.tif", f["classes"], transform=T_GRID)
@@ -323,11 +330,7 @@ def test_a_stack_with_a_cf_grid_mapping_or_south_up_rows_equals_the_same_field_a
 def test_season_composites_streamed_and_read_back_equal_numpy_over_the_days(tmp_path):
     _static(tmp_path)
     name, _, _, _ = _write_stacks(tmp_path)
-    day = {"dates": {"start": "2026-06-01", "end": "2026-06-10"},
-           "shortwave_down": {"path": name, "variable": "rsds"},
-           "air_temperature_max": {"path": name, "variable": "tmax"},
-           "air_temperature_min": {"path": name, "variable": "tmin"},
-           "vapour_pressure": {"path": name, "variable": "vp"}}
+    day = _stack_day(name, "2026-06-01", "2026-06-10")
     streamed = ["mean", "total", "sum", "count", "std", "min", "max"]
     comps = [{"name": "early", "from": "days", "start": "2026-06-01", "end": "2026-06-06", "statistics": streamed,
               "min_count": 2},
@@ -377,11 +380,7 @@ def test_a_season_gets_one_long_zone_table_and_a_rerun_redoes_only_tables_whose_
     _static(tmp_path)
     polygons = _zones_file(tmp_path)
     name, _, _, _ = _write_stacks(tmp_path)
-    day = {"dates": {"start": "2026-06-01", "end": "2026-06-05"},
-           "shortwave_down": {"path": name, "variable": "rsds"},
-           "air_temperature_max": {"path": name, "variable": "tmax"},
-           "air_temperature_min": {"path": name, "variable": "tmin"},
-           "vapour_pressure": {"path": name, "variable": "vp"}}
+    day = _stack_day(name, "2026-06-01", "2026-06-05")
     cfg = _config(tmp_path, days=[day], zones={"path": "basins.geojson", "id": "basin"},
                   composites=[{"name": "early", "from": "days", "start": "2026-06-01", "end": "2026-06-05"}])
     run_config(load_config(cfg))
@@ -422,11 +421,7 @@ def test_a_season_gets_one_long_zone_table_and_a_rerun_redoes_only_tables_whose_
 def test_netcdf_takes_the_listed_products_and_an_unchanged_rerun_keeps_stacks_and_quicklooks(tmp_path):
     _static(tmp_path)
     name, _, _, _ = _write_stacks(tmp_path)
-    day = {"dates": {"start": "2026-06-01", "end": "2026-06-04"},
-           "shortwave_down": {"path": name, "variable": "rsds"},
-           "air_temperature_max": {"path": name, "variable": "tmax"},
-           "air_temperature_min": {"path": name, "variable": "tmin"},
-           "vapour_pressure": {"path": name, "variable": "vp"}}
+    day = _stack_day(name, "2026-06-01", "2026-06-04")
     cfg = _config(tmp_path, days=[day])
     text = yaml.safe_load(cfg.read_text())
     text["output"].update(netcdf=["net_radiation"], quicklooks=True)
