@@ -271,3 +271,17 @@ def test_unreachable_scheduler_exits_2_naming_the_address(unreachable_run):
     assert unreachable_run.address in lines[0]
     assert "Traceback" not in r.stderr
     assert not list(unreachable_run.folder.rglob("*_20260714T1810.tif"))
+
+
+def test_distributed_tiles_compressed_in_tasks_equal_a_local_gdal_pass(cluster, tmp_path):
+    # chunks of 512: the workers compress the tiles and spool them beside the products, the client lays
+    # the COGs out; chunks of 256 (locally): uncompressed intermediates and GDAL's COG driver
+    tiled = make_scenario(tmp_path / "tiled", shape=(1100, 600), chunk=512)
+    run_config(load_config(tiled.config), scheduler=cluster)
+    ref = make_scenario(tmp_path / "ref", shape=(1100, 600), chunk=256)
+    run_config(load_config(ref.config))
+    for name in PRODUCTS:
+        _assert_identical(_product(tmp_path / "tiled", name), _product(tmp_path / "ref", name))
+        with rasterio.open(_product(tmp_path / "tiled", name)) as ds:
+            assert ds.tags(ns="IMAGE_STRUCTURE").get("LAYOUT") == "COG", name
+    assert not [p for p in (tmp_path / "tiled" / "out").rglob("*") if "radledger-partial" in p.name]

@@ -26,6 +26,7 @@ import rasterio
 import yaml
 
 import radledger.io.cog as cog
+import radledger.io.cogcheck as cogcheck
 from radledger.cli import main
 from radledger.config import load_config
 from radledger.runner import run_config
@@ -37,11 +38,12 @@ SRC = HERE.parent / "src"
 TIMES = ("2026-07-10T18:10:00Z", "2026-07-11T18:10:00Z")
 
 
-@pytest.fixture(scope="module")
-def two_scenes(tmp_path_factory):
-    """Two 600 x 600 scenes, four products each; ``ref/``: an undisturbed run."""
+@pytest.fixture(scope="module", params=[256, 512], ids=["gdal-cog-pass", "tiles-in-tasks"])
+def two_scenes(tmp_path_factory, request):
+    """Two 600 x 600 scenes, four products each; ``ref/``: an undisturbed run.  Chunks of 256 go through
+    the uncompressed intermediates and GDAL's COG driver, chunks of 512 compress their tiles in the tasks."""
     folder = tmp_path_factory.mktemp("diskfull")
-    scn = make_scenario(folder, shape=(600, 600), chunk=256)
+    scn = make_scenario(folder, shape=(600, 600), chunk=request.param)
     cfg = yaml.safe_load(scn.config.read_text())
     cfg["scenes"] = [dict(cfg["scenes"][0], time=t) for t in TIMES]
     cfg["output"]["directory"] = "ref"
@@ -181,7 +183,7 @@ def test_finished_products_are_read_whole_after_a_run(tmp_path):
     report = run_config(load_config(scn.config))
     for p in report.written:
         with rasterio.open(p) as ds:
-            cog.verify_cog(str(p), width=ds.width, height=ds.height, dtype=ds.dtypes[0])
+            cogcheck.verify_cog(str(p), width=ds.width, height=ds.height, dtype=ds.dtypes[0])
         assert np.isfinite(read(p)).any() or "quality" in p.name
 
 

@@ -25,6 +25,7 @@ from rasterio.windows import Window
 
 from ..grid import TargetGrid
 from ..io.cog import ProductFile, is_current
+from ..io.tiles import TileSink
 from ..io.overviews import mean_pyramid, nearest_levels, overview_factors
 from ..kinds import TimeKind
 from ..model.kernels import day_kernel, scene_kernel
@@ -117,32 +118,46 @@ def _sun_needed(p, grid: TargetGrid, window) -> bool:
     return not sun_up_everywhere(grid, window, p.time, min_elevation=CLEARNESS_MIN_SUN_ELEVATION + 1.0)
 
 
-def _write_chunk(job: Job, window, products: dict, sinks: dict) -> dict:
-    """Write one chunk's products (and their overview blocks); their summaries."""
+def _write_chunk(job: Job, window, products: dict, sinks: dict, spools: dict) -> dict:
+    """Write one chunk's products (and their overview blocks); their summaries.
+
+    A product with a tile spool (``spools``) has its full-resolution block and
+    the overview blocks of its spooled levels compressed into the spool; every
+    other level (or the whole product) goes into its intermediates.
+    """
     r0, c0 = int(window.row_off), int(window.col_off)
     h, w = int(window.height), int(window.width)
     summary = {}
     for n, a in products.items():
         full, levels = sinks[n]
-        full[slice(r0, r0 + h), slice(c0, c0 + w)] = a
+        spool = spools.get(n)
+        if spool is None:
+            full[slice(r0, r0 + h), slice(c0, c0 + w)] = a
+        else:
+            spool.put(1, r0, c0, a)
+        wanted = tuple(sorted({*levels, *(spool.sink.factors[1:] if spool else ())}))
         product = target_product(job, n)
         if product.is_flags:
-            blocks = nearest_levels(a, tuple(levels)) if levels else {}
+            blocks = nearest_levels(a, wanted) if wanted else {}
             bits = product.flags
             summary[n] = FlagSummary(int(np.count_nonzero(a & bits["out_of_range"])),
                                      int(np.count_nonzero(a & bits["input_missing"])))
         else:
-            blocks, (lo, hi, tot, cnt) = mean_pyramid(a, tuple(levels) or (2,))
-            blocks = {f: blocks[f] for f in levels}
+            blocks, (lo, hi, tot, cnt) = mean_pyramid(a, wanted or (2,))
+            blocks = {f: blocks[f] for f in wanted}
             summary[n] = ValueSummary(lo, hi, tot, cnt)
         for f, block in blocks.items():
-            bh, bw = block.shape
-            levels[f][slice(r0 // f, r0 // f + bh), slice(c0 // f, c0 // f + bw)] = block
+            if f in levels:
+                bh, bw = block.shape
+                levels[f][slice(r0 // f, r0 // f + bh), slice(c0 // f, c0 // f + bw)] = block
+            else:
+                spool.put(f, r0 // f, c0 // f, block)
     return summary
 
 
-def _batch_task(batch: tuple, grid: TargetGrid, window, shared: frozenset, streams: tuple) -> list[dict]:
-    """One chunk of every date of a batch: compute, write, stream; the summaries, date by date.
+def _batch_task(batch: tuple, grid: TargetGrid, window, shared: frozenset, streams: tuple) -> list[tuple]:
+    """One chunk of every date of a batch: compute, write, stream; date by date, the summaries and
+    the index of the tiles spooled (product -> index, see io/tiles.py).
 
     ``batch``: (job, product names, sinks) per date.  The context keeps what is the same for every
     date; products are written (and streamed) before the next date reuses the kernel's buffers.
@@ -152,19 +167,28 @@ def _batch_task(batch: tuple, grid: TargetGrid, window, shared: frozenset, strea
     for job, _, _ in batch:
         for src in job.sources.values():
             memo.want(src)
-    for block in sub_windows(window, compute_block(grid)):
-        # the slabs serve every block of the chunk; each block's resampling geometry only its own dates
-        ctx = ChunkContext(grid, block, shared, replace(memo, warps={}))
-        sums = [stream.block(block) for stream in streams]    # composites accumulated as dates go by
-        for i, (job, names, sinks) in enumerate(batch):
-            products = chunk_products(job, grid, block, names, reuse=True, ctx=ctx)
-            summary = _write_chunk(job, block, products, sinks)
-            out[i] = summary if out[i] is None else {n: out[i][n].merge(summary[n]) for n in summary}
+    spools = [{n: full.for_chunk(window) for n, (full, _) in sinks.items() if isinstance(full, TileSink)}
+              for _, _, sinks in batch]
+    try:
+        for block in sub_windows(window, compute_block(grid)):
+            # the slabs serve every block of the chunk; each block's resampling geometry only its own dates
+            ctx = ChunkContext(grid, block, shared, replace(memo, warps={}))
+            sums = [stream.block(block) for stream in streams]    # composites accumulated as dates go by
+            for i, (job, names, sinks) in enumerate(batch):
+                products = chunk_products(job, grid, block, names, reuse=True, ctx=ctx)
+                summary = _write_chunk(job, block, products, sinks, spools[i])
+                out[i] = summary if out[i] is None else {n: out[i][n].merge(summary[n]) for n in summary}
+                for s in sums:
+                    s.add(job, products)
             for s in sums:
-                s.add(job, products)
-        for s in sums:
-            s.flush()
-    return out
+                s.flush()
+        tiles = [{n: spool.close() for n, spool in date.items()} for date in spools]
+    except BaseException:
+        for date in spools:
+            for spool in date.values():
+                spool.discard()
+        raise
+    return list(zip(out, tiles))
 
 
 #: edge of the blocks a chunk task computes one at a time [pixel]: what a task holds for one date
@@ -238,7 +262,7 @@ def _product_files(plan: Plan, job: Job, todo: dict, engine: Engine) -> list[Pro
         files.append(ProductFile(final=path, grid=plan.grid, dtype=info.dtype,
                                  tags=job_product_tags(plan.cfg, job, n), band_description=info.long_name,
                                  compression=plan.cfg.output.compression, in_task=in_task, block=block,
-                                 nodata=info.nodata, categorical=info.is_flags))
+                                 nodata=info.nodata, categorical=info.is_flags, spool=True))
     return files
 
 
@@ -250,11 +274,14 @@ class PendingBatch:
 
     def finish(self) -> list[JobResult]:
         """Each product's COG pass.  With several products, one pass per core, each on one thread:
-        GDAL's own threads (one pass on every core) spend ~1.6x the CPU on the same work."""
+        GDAL's own threads (one pass on every core) spend ~1.6x the CPU on the same work.  Products
+        whose tiles the tasks compressed are only laid out and synced here, up to four at once."""
         every = [f for files in self.files for f in files]
+        # files assembled from spooled tiles mostly wait for the disk (the copy, fsync): one thread each
+        threads = min(len(every), 4) if all(f.tiled for f in every) else FINISH_THREADS
         try:
-            if len(every) > 1 and FINISH_THREADS > 1:
-                with ThreadPoolExecutor(FINISH_THREADS, thread_name_prefix="radledger_cog") as pool:
+            if len(every) > 1 and threads > 1:
+                with ThreadPoolExecutor(threads, thread_name_prefix="radledger_cog") as pool:
                     done = list(pool.map(lambda f: f.finish(threads="1"), every))
             else:
                 done = [f.finish() for f in every]
@@ -276,7 +303,7 @@ class PendingBatch:
 def compute_batch(plan: Plan, jobs: list[Job], engine: Engine, *, overwrite: bool = False,
                   streams: tuple = ()) -> PendingBatch:
     """Compute every product of ``jobs`` that is not current into its intermediates (not yet COGs)."""
-    results, files, batch = [], [], []
+    results, files, batch, by_name = [], [], [], {}
     try:
         for job in jobs:
             result = JobResult(job)
@@ -290,10 +317,11 @@ def compute_batch(plan: Plan, jobs: list[Job], engine: Engine, *, overwrite: boo
                 continue
             for f in job_files:
                 f.create(keep_open=not engine.distributed)
-            sinks = {n: (f.sink(engine.lock(f.intermediate)),
+            sinks = {n: (f.tile_sink() if f.tiled else f.sink(engine.lock(f.intermediate)),
                          {fac: f.sink(engine.lock(f.level_files[fac]), factor=fac) for fac in f.in_task})
                      for n, f in zip(todo, job_files)}
             batch.append((job, tuple(todo), sinks))
+            by_name[id(job)] = dict(zip(todo, job_files))
         if batch:
             dsk, keys = batch_graph(tuple(batch), plan.grid, streams)
             first, last = batch[0][0], batch[-1][0]
@@ -303,7 +331,10 @@ def compute_batch(plan: Plan, jobs: list[Job], engine: Engine, *, overwrite: boo
                 parts = engine.get(dsk, keys, label=label)
             by_job = {id(job): [p[i] for p in parts] for i, (job, _, _) in enumerate(batch)}
             for result, (job, names, _) in zip((r for r in results if id(r.job) in by_job), batch):
-                result.summary = _merge_summaries(by_job[id(job)], names)
+                result.summary = _merge_summaries([summary for summary, _ in by_job[id(job)]], names)
+                for _, tiles in by_job[id(job)]:
+                    for n, index in tiles.items():
+                        by_name[id(job)][n].add_tiles(index)
     except BaseException:
         PendingBatch(results, files).abort()
         raise

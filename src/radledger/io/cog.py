@@ -21,6 +21,7 @@ A failure raises :class:`~radledger.errors.DiskFullError` or
 from __future__ import annotations
 
 import contextlib
+import glob
 import os
 import threading
 from dataclasses import dataclass
@@ -43,11 +44,14 @@ from .atomic import fsync_file
 from .gdalapi import GdalFailure, gdal_failures
 from .gdalenv import gdal_env
 from .lock import PARTIAL_MARK, partial_token, sweep_partials
+from .cogcheck import check_tiles_written, verify_cog
+from .cogfile import georeferencing_tags, write_cog
 from .overviews import level_shape, overview_factors, reduce_level
 from .space import write_failure
+from .tiles import SPOOL_CODECS, TILE, TileCodec, TileSink
 
 __all__ = ["COG_DEFAULTS", "COMPRESSIONS", "ProductFile", "WindowSink", "sweep_partials", "read_tags",
-           "is_current", "PARTIAL_MARK", "verify_cog", "before_rename"]
+           "is_current", "PARTIAL_MARK", "before_rename"]
 
 QUOTE = {'"': "&quot;"}
 
@@ -64,6 +68,7 @@ COG_DEFAULTS: dict[str, str] = {
     "PREDICTOR": "YES",
 }
 CODEC_LEVEL = {"zstd": ("LEVEL", "1"), "deflate": ("LEVEL", "6"), "lzw": (None, None)}
+CODEC_LEVEL_NUMBERS = tuple((c, int(v)) for c, (_, v) in CODEC_LEVEL.items() if v)
 
 # The intermediate: tiled like the COG so the COG driver reads whole tiles.
 _INTERMEDIATE = {"driver": "GTiff", "tiled": True, "blockxsize": 512, "blockysize": 512,
@@ -74,7 +79,6 @@ _open_for_write: dict[str, rasterio.io.DatasetWriter] = {}
 _closed_here: set[str] = set()   # paths whose handle this process opened and closed
 # checks run just before a finished product is renamed into place (the runner's input guard)
 _before_rename: list[Callable[[Path], None]] = []
-TILE = 512
 #: what a failed write can raise: OS errors (rasterio's included) and GDAL's own errors
 _WRITE_ERRORS = (OSError, rasterio.errors.RasterioError, rasterio._err.CPLE_BaseError)
 
@@ -163,6 +167,14 @@ class ProductFile:
     overviews.py); the remaining factors GDAL would add are averaged here from
     the coarsest of them.  With no in-task factor the COG driver makes the
     overviews itself.
+
+    ``tiled`` (asked for by ``spool=True``, possible when every chunk is made of
+    whole 512-pixel tiles and the codec is Zstandard or Deflate): the tasks
+    compress the full-resolution tiles, and the overview tiles that lie inside
+    one chunk, themselves (``io/tiles.py``); the other overview levels go
+    through intermediates as above and are compressed here; ``io/cogfile.py``
+    lays the tiles out as the COG.  No uncompressed full-resolution copy and
+    no second compression pass.
     """
     final: Path
     grid: TargetGrid
@@ -174,16 +186,23 @@ class ProductFile:
     nodata: float = float("nan")  # NaN for float products; a declared value for integer (flag) ones
     categorical: bool = False     # overviews by nearest pixel (bit flags), not by averaging
     block: int = TILE             # edge of the blocks the tasks write [pixel] (the intermediates' tiles)
+    spool: bool = False           # compress tiles in the tasks where the chunking allows (``tiled``)
 
     def __post_init__(self):
         self.final = Path(self.final)
-        stem = str(self.final.parent / f".{self.final.stem}{PARTIAL_MARK}-{partial_token()}")
+        self.stem = stem = str(self.final.parent / f".{self.final.stem}{PARTIAL_MARK}-{partial_token()}")
         self.intermediate = f"{stem}.raw.tif"
         self.partial_cog = f"{stem}.cog.tif"
         self.vrt = f"{stem}.vrt"
         self.factors = overview_factors(self.grid.width, self.grid.height)
-        self.in_task = tuple(f for f in self.in_task if f in self.factors)
+        chunk = self.grid.chunk
+        self.tiled = (self.spool and self.compression in SPOOL_CODECS and self.block == TILE
+                      and chunk % TILE == 0)
+        # levels whose tiles the tasks compress: full resolution, and overview tiles inside one chunk
+        self.task_tiles = (1, *(f for f in self.factors if chunk % (TILE * f) == 0)) if self.tiled else ()
+        self.in_task = tuple(f for f in self.in_task if f in self.factors and f not in self.task_tiles)
         self.level_files = {f: f"{stem}.ov{f}.tif" for f in self.factors}
+        self._tiles: dict[tuple[int, int, int], tuple] = {}
         self._lock = threading.Lock()
         self._sink_locks: dict[str, object] = {}
         self._sinks: list[WindowSink] = []
@@ -230,8 +249,9 @@ class ProductFile:
         self._kept_open = keep_open
         try:
             self.final.parent.mkdir(parents=True, exist_ok=True)
-            self._create(self.intermediate, self.grid.width, self.grid.height, self.grid.transform, keep_open,
-                         self.tags, tile=self.tile_for(1))
+            if not self.tiled:
+                self._create(self.intermediate, self.grid.width, self.grid.height, self.grid.transform, keep_open,
+                             self.tags, tile=self.tile_for(1))
             for f in self.in_task:
                 h, w = level_shape(self.grid.height, self.grid.width, f)
                 self._create(self.level_files[f], w, h, _scaled(self.grid.transform, f), keep_open,
@@ -247,6 +267,18 @@ class ProductFile:
                           tile=self.tile_for(factor))
         self._sinks.append(sink)
         return sink
+
+    def tile_sink(self) -> TileSink:
+        """Where the tasks put this product's compressed tiles (``tiled`` products)."""
+        level = dict(CODEC_LEVEL_NUMBERS)[self.compression]
+        codec = TileCodec(self.compression, level, self.dtype, fill=self.nodata)
+        return TileSink(self.stem, str(self.final), codec, self.grid.height, self.grid.width, self.task_tiles,
+                        self.block, need=self.need)
+
+    def add_tiles(self, index) -> None:
+        """Tiles a task spooled: ``(factor, tile_row, tile_col, path, offset, size, last4)`` each."""
+        for factor, tr, tc, *where in index:
+            self._tiles[(factor, tr, tc)] = tuple(where)
 
     def close_intermediate(self, *, check: bool = False) -> None:
         """Close the handles, each under its writers' lock; ``check``: raise if a write was lost.
@@ -270,25 +302,17 @@ class ProductFile:
                         ds.close()
         if check and self._kept_open:
             for sink in self._sinks:
-                _check_tiles(sink.path, sink.touched)
+                check_tiles_written(sink.path, sink.touched)
 
     # -- stage 2: one compression pass into a COG, checked, then renamed into place
     def finish(self, *, threads: str = "ALL_CPUS") -> Path:
         """The COG pass (GDAL's compression on ``threads``), checked, renamed into place."""
         try:
             self.close_intermediate(check=True)
-            opts = dict(cog_options(self.compression, categorical=self.categorical), NUM_THREADS=threads)
-            source = self.intermediate
-            if self.in_task:
-                self._coarser_levels()
-                self._write_vrt()
-                source = self.vrt
-                opts["OVERVIEWS"] = "FORCE_USE_EXISTING"
-            with gdal_failures(self.partial_cog), gdal_env(GDAL_NUM_THREADS=threads):
-                try:
-                    rasterio.shutil.copy(source, self.partial_cog, driver="COG", **opts)
-                except SystemError as exc:   # rasterio: GDAL returned nothing and said nothing
-                    raise GdalFailure(f"{self.partial_cog}: the COG copy failed ({exc})") from None
+            if self.tiled:
+                self._assemble()
+            else:
+                self._compress(threads)
             verify_cog(self.partial_cog, width=self.grid.width, height=self.grid.height, dtype=self.dtype)
             fsync_file(self.partial_cog)
             for check in list(_before_rename):
@@ -303,6 +327,39 @@ class ProductFile:
             raise failure from None
         self._remove_temporaries()
         return self.final
+
+    def _compress(self, threads: str) -> None:
+        """GDAL's COG driver over the intermediate (and the level files): ``partial_cog``."""
+        opts = dict(cog_options(self.compression, categorical=self.categorical), NUM_THREADS=threads)
+        source = self.intermediate
+        if self.in_task:
+            self._coarser_levels()
+            self._write_vrt()
+            source = self.vrt
+            opts["OVERVIEWS"] = "FORCE_USE_EXISTING"
+        with gdal_failures(self.partial_cog), gdal_env(GDAL_NUM_THREADS=threads):
+            try:
+                rasterio.shutil.copy(source, self.partial_cog, driver="COG", **opts)
+            except SystemError as exc:   # rasterio: GDAL returned nothing and said nothing
+                raise GdalFailure(f"{self.partial_cog}: the COG copy failed ({exc})") from None
+
+    def _assemble(self) -> None:
+        """``partial_cog`` from the spooled tiles, the level files' tiles compressed here first."""
+        if self.in_task:
+            self._coarser_levels()
+        sink = self.tile_sink()
+        spool, t = sink.spool(f"{self.stem}.levels.tiles"), TILE
+        for f in (f for f in self.factors if f not in self.task_tiles):
+            with gdal_env(), rasterio.open(self.level_files[f]) as ds:
+                for r in range(0, ds.height, t):
+                    for c in range(0, ds.width, t):
+                        win = Window(c, r, min(t, ds.width - c), min(t, ds.height - r))
+                        spool.write_tile(f, r // t, c // t, ds.read(1, window=win))
+        self.add_tiles(spool.close())
+        geo = georeferencing_tags(crs=self.grid.crs, transform=self.grid.transform, dtype=self.dtype,
+                                  nodata=self.nodata, tags=self.tags, description=self.band_description)
+        write_cog(self.partial_cog, codec=sink.codec, width=self.grid.width, height=self.grid.height,
+                  factors=self.factors, tiles=self._tiles, geo=geo)
 
     def _coarser_levels(self) -> None:
         """Levels beyond the in-task ones, from the coarsest in-task level (small)."""
@@ -340,61 +397,13 @@ class ProductFile:
             fh.write(xml)
 
     def _remove_temporaries(self) -> None:
-        for path in [self.intermediate, self.vrt, self.partial_cog, *self.level_files.values()]:
+        spools = glob.glob(glob.escape(self.stem) + ".*.tiles") if self.tiled else []
+        for path in [self.intermediate, self.vrt, self.partial_cog, *self.level_files.values(), *spools]:
             _remove(path)
 
     def abort(self) -> None:
         self.close_intermediate()
         self._remove_temporaries()
-
-
-def _check_tiles(path: str, touched: set[tuple[int, int]]) -> None:
-    """Every tile that received data is stored inside the file (a lost write leaves it sparse)."""
-    if not touched:
-        return
-    size = os.path.getsize(path)
-    with gdal_env(), rasterio.open(path) as ds:
-        for tr, tc in sorted(touched):
-            off = ds.get_tag_item(f"BLOCK_OFFSET_{tc}_{tr}", "TIFF", bidx=1)
-            n = ds.get_tag_item(f"BLOCK_SIZE_{tc}_{tr}", "TIFF", bidx=1)
-            if not off or not n or int(off) + int(n) > size:
-                raise OSError(f"{path}: tile ({tr}, {tc}) was written but is not in the file")
-
-
-def verify_cog(path: str, *, width: int, height: int, dtype: str) -> None:
-    """Raise ``OSError`` unless ``path`` is a whole COG: header, every tile, last tile, smallest overview.
-
-    Each tile of the image and of every overview must lie inside the file;
-    the last tile of the image (written last) and the whole smallest overview
-    are decoded.
-    """
-    size = os.path.getsize(path)
-    with gdal_failures(path), gdal_env():
-        with rasterio.open(path) as ds:
-            if (ds.width, ds.height, ds.dtypes[0]) != (width, height, dtype):
-                raise OSError(f"{path}: header says {ds.width} x {ds.height} {ds.dtypes[0]}, "
-                              f"expected {width} x {height} {dtype}")
-            n_levels = len(ds.overviews(1))
-            _tiles_inside(ds, size, None)
-            bh, bw = ds.block_shapes[0]
-            r0, c0 = (height - 1) // bh * bh, (width - 1) // bw * bw
-            ds.read(1, window=Window(c0, r0, width - c0, height - r0))
-        for level in range(n_levels):
-            with rasterio.open(path, overview_level=level) as ov:
-                _tiles_inside(ov, size, level)
-                if level == n_levels - 1:
-                    ov.read(1)
-
-
-def _tiles_inside(ds, size: int, level) -> None:
-    bh, bw = ds.block_shapes[0]
-    for r in range(-(-ds.height // bh)):
-        for c in range(-(-ds.width // bw)):
-            off = ds.get_tag_item(f"BLOCK_OFFSET_{c}_{r}", "TIFF", bidx=1)
-            n = ds.get_tag_item(f"BLOCK_SIZE_{c}_{r}", "TIFF", bidx=1)
-            if not off or not n or int(off) + int(n) > size:
-                where = "image" if level is None else f"overview {level + 1}"
-                raise OSError(f"{ds.name}: tile ({r}, {c}) of the {where} is missing or cut off")
 
 
 @contextlib.contextmanager
