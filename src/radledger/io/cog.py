@@ -1,11 +1,17 @@
-"""GeoTIFF products: chunked writes into a tiled intermediate, one compression pass into a COG.
+"""GeoTIFF products: written by the chunk tasks, laid out or compressed once into a COG, renamed into place.
 
 Why this shape (measured on a 2-core machine, see benchmarks/README.md): compression, not arithmetic,
-bounds a run, and GDAL's COG driver needs a finished source.  So blocks are
-stored uncompressed into a tiled intermediate beside the target (cheap, and
-in the page cache), then GDAL's COG driver compresses once, with overviews,
-using every core, and the result is renamed into place.  No product ever sits
-half-written at its final path; temporaries carry ``.radledger-partial`` and
+bounds a run.  Two ways, chosen per product by the chunking:
+
+* **Tiles compressed in the tasks** (``ProductFile.tiled``: every chunk is made
+  of whole 512-pixel tiles, codec Zstandard or Deflate): each task applies the
+  TIFF predictor and codec to its own tiles on its own core and spools the
+  bytes (io/tiles.py); the COG is then laid out from them (io/cogfile.py).
+  Nothing is compressed twice and no uncompressed full-size copy is written.
+* **One COG pass** (any other chunk edge, or LZW): blocks are stored uncompressed into a tiled
+  intermediate beside the target (in the page cache); GDAL's COG driver compresses it once.
+
+No product ever sits half-written at its final path; temporaries carry ``.radledger-partial`` and
 their owner in their name so a later run can sweep up what a killed one left.
 
 GDAL does not report every failed write (a full disk while it flushes its
@@ -13,8 +19,8 @@ block cache is only recorded in its error state, and the COG driver can
 finish a truncated file without an error), so every write is checked: GDAL's
 error state after each block and close, every tile that received data present
 in the intermediate, and before the rename every tile of the COG inside the
-file, its last tile and smallest overview decoded, and the file synced to disk.
-A failure raises :class:`~radledger.errors.DiskFullError` or
+file, its last tile and smallest overview decoded, and the file synced to disk
+(io/cogcheck.py).  A failure raises :class:`~radledger.errors.DiskFullError` or
 :class:`~radledger.errors.WriteError` and removes the temporaries.
 """
 

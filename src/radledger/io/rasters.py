@@ -28,6 +28,7 @@ from .gdalenv import gdal_env
 from .memo import ReadMemo
 from .paths import gdal_path
 from .resample import FAST_RESAMPLING, warp_for
+from .tiffread import BrokenTile, read_tiles
 
 __all__ = ["LayerSource", "FileEncoding", "file_encoding", "open_dataset", "check_overlap", "read_failed",
            "short_error"]
@@ -70,7 +71,7 @@ class LayerSource:
             ds = open_dataset(self.gdal_path, self.path)
             try:
                 raw = self._read_raw(ds, grid, window, memo.warps if memo is not None else None)
-            except RasterioIOError as exc:
+            except (RasterioIOError, BrokenTile) as exc:
                 raise read_failed(self.path, exc) from None
         return self._decode(raw)
 
@@ -78,7 +79,10 @@ class LayerSource:
         h, w = int(window.height), int(window.width)
         nodata = self.nodata
         if grid.same_as(ds.crs, ds.transform, ds.width, ds.height):
-            raw = ds.read(1, window=window).astype(np.float32, copy=False)
+            raw = read_tiles(ds, window)
+            if raw is None:
+                raw = ds.read(1, window=window)
+            raw = raw.astype(np.float32, copy=False)
             if nodata is not None:
                 raw = np.where(raw == np.float32(nodata), np.float32(np.nan), raw)
             return raw
