@@ -116,7 +116,7 @@ def test_tiled_cog_follows_gdal_cog_layout(tmp_path):
             assert raw[off + size:off + size + 4] == raw[off + size - 4:off + size]   # trailer: last 4 bytes
 
 
-def _spool_cog(path, a, codec, factors=(), bigtiff=None):
+def _spool_cog(path, a, codec, factors=(), bigtiff=None, crs="EPSG:32611"):
     """A COG of ``a`` (no overviews) through the spool and the layout writer."""
     h, w = a.shape
     sink = TileSink(str(path) + ".stem", str(path), codec, h, w, (1,), 512)
@@ -125,9 +125,27 @@ def _spool_cog(path, a, codec, factors=(), bigtiff=None):
         for c in range(0, w, 512):
             spool.put(1, r, c, a[r:r + 512, c:c + 512])
     tiles = {entry[:3]: entry[3:] for entry in spool.close()}
-    geo = georeferencing_tags(crs="EPSG:32611", transform=from_origin(500000, 4100000, 30, 30), dtype=codec.dtype,
+    geo = georeferencing_tags(crs=crs, transform=from_origin(500000, 4100000, 30, 30), dtype=codec.dtype,
                               nodata=codec.fill, tags={"units": "W m-2"}, description="fixture")
     write_cog(str(path), codec=codec, width=w, height=h, factors=factors, tiles=tiles, geo=geo, bigtiff=bigtiff)
+
+
+@pytest.mark.parametrize("crs", ["EPSG:4326", "EPSG:3035",
+                                 "+proj=laea +lat_0=44 +lon_0=-109 +ellps=GRS80 +units=m +no_defs"])
+def test_georeferencing_equals_gdal_cog_driver_for_other_crs(tmp_path, crs):
+    a = np.arange(600 * 520, dtype=np.float32).reshape(600, 520)
+    ours = tmp_path / "ours.tif"
+    _spool_cog(ours, a, TileCodec("zstd", 1, "float32"), crs=crs)
+    ref = tmp_path / "ref.tif"
+    with rasterio.open(ref, "w", driver="COG", width=520, height=600, count=1, dtype="float32", crs=crs,
+                       transform=from_origin(500000, 4100000, 30, 30), nodata=float("nan"), compress="zstd",
+                       blocksize=512, overviews="NONE") as ds:
+        ds.write(a, 1)
+    with rasterio.open(ours) as o, rasterio.open(ref) as r:
+        assert o.crs.to_wkt() == r.crs.to_wkt()
+        assert o.transform == r.transform
+        np.testing.assert_array_equal(o.read(1), r.read(1))
+    assert not list(tmp_path.glob("*.aux.xml"))
 
 
 @pytest.mark.parametrize("bigtiff", [False, True])

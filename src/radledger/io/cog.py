@@ -74,7 +74,6 @@ COG_DEFAULTS: dict[str, str] = {
     "PREDICTOR": "YES",
 }
 CODEC_LEVEL = {"zstd": ("LEVEL", "1"), "deflate": ("LEVEL", "6"), "lzw": (None, None)}
-CODEC_LEVEL_NUMBERS = tuple((c, int(v)) for c, (_, v) in CODEC_LEVEL.items() if v)
 
 # The intermediate: tiled like the COG so the COG driver reads whole tiles.
 _INTERMEDIATE = {"driver": "GTiff", "tiled": True, "blockxsize": 512, "blockysize": 512,
@@ -276,8 +275,7 @@ class ProductFile:
 
     def tile_sink(self) -> TileSink:
         """Where the tasks put this product's compressed tiles (``tiled`` products)."""
-        level = dict(CODEC_LEVEL_NUMBERS)[self.compression]
-        codec = TileCodec(self.compression, level, self.dtype, fill=self.nodata)
+        codec = TileCodec(self.compression, int(CODEC_LEVEL[self.compression][1]), self.dtype, fill=self.nodata)
         return TileSink(self.stem, str(self.final), codec, self.grid.height, self.grid.width, self.task_tiles,
                         self.block, need=self.need)
 
