@@ -124,7 +124,7 @@ def _spool_cog(path, a, codec, factors=(), bigtiff=None, crs="EPSG:32611"):
     for r in range(0, h, 512):
         for c in range(0, w, 512):
             spool.put(1, r, c, a[r:r + 512, c:c + 512])
-    tiles = {entry[:3]: entry[3:] for entry in spool.close()}
+    tiles = {entry[:3]: entry[3:] for entry in spool.close()[0]}
     geo = georeferencing_tags(crs=crs, transform=from_origin(500000, 4100000, 30, 30), dtype=codec.dtype,
                               nodata=codec.fill, tags={"units": "W m-2"}, description="fixture")
     write_cog(str(path), codec=codec, width=w, height=h, factors=factors, tiles=tiles, geo=geo, bigtiff=bigtiff)
@@ -201,7 +201,7 @@ def test_a_missing_tile_is_named_and_nothing_is_written(tmp_path):
     sink = TileSink(str(tmp_path / "s"), str(tmp_path / "x.tif"), codec, 600, 600, (1,), 512)
     spool = sink.spool(str(tmp_path / "s.tiles"))
     spool.put(1, 0, 0, a[:512, :512])
-    tiles = {e[:3]: e[3:] for e in spool.close()}
+    tiles = {e[:3]: e[3:] for e in spool.close()[0]}
     geo = georeferencing_tags(crs="EPSG:32611", transform=from_origin(500000, 4100000, 30, 30), dtype="float32",
                               nodata=float("nan"), tags={}, description="x")
     with pytest.raises(OSError, match=r"tile \(row 0, column 1\) of level 1/1 was never written"):
@@ -219,4 +219,21 @@ def test_overview_tile_waits_for_every_block_under_it(tmp_path):
     with pytest.raises(RuntimeError, match="overview tiles left incomplete"):
         spool.close()
     spool.put(2, 256, 256, np.ones((244, 244), np.float32))
-    assert [e[:3] for e in spool.close()] == [(2, 0, 0)]
+    assert [e[:3] for e in spool.close()[0]] == [(2, 0, 0)]
+
+
+def test_levels_beyond_the_task_levels_equal_gdal_path(tmp_path, monkeypatch):
+    # On grids wider than 512 x 512 tiles the tasks stop at factor 512 and coarser levels are averaged
+    # from the coarsest task level.  Pretend the tasks stop at factor 4 so that a small grid needs it:
+    # factor 8 then comes from factor 4 on both paths.
+    from radledger.execution import graph
+    monkeypatch.setattr(graph, "overview_factors", lambda w, h: (2, 4))
+    scn = make_scenario(tmp_path, shape=(2100, 1100), chunk=256)
+    ref = _run(scn, "ref", 256)
+    new = _run(scn, "tiled", 1024)
+    for name in ("net_radiation", "quality"):
+        (a,) = ref.glob(f"{name}_*.tif")
+        levels_a, levels_b = _levels(a), _levels(new / a.name)
+        assert len(levels_a) == len(levels_b) == 4          # factors 2, 4, 8
+        for la, lb in zip(levels_a, levels_b):
+            np.testing.assert_array_equal(lb, la)

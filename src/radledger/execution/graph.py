@@ -25,6 +25,7 @@ from rasterio.windows import Window
 
 from ..grid import TargetGrid
 from ..io.cog import ProductFile, is_current
+from ..io.gdalenv import gdal_env
 from ..io.tiles import TileSink
 from ..io.overviews import mean_pyramid, nearest_levels, overview_factors
 from ..kinds import TimeKind
@@ -121,9 +122,9 @@ def _sun_needed(p, grid: TargetGrid, window) -> bool:
 def _write_chunk(job: Job, window, products: dict, sinks: dict, spools: dict) -> dict:
     """Write one chunk's products (and their overview blocks); their summaries.
 
-    A product with a tile spool (``spools``) has its full-resolution block and
-    the overview blocks of its spooled levels compressed into the spool; every
-    other level (or the whole product) goes into its intermediates.
+    A product with a tile spool (``spools``) hands it its full-resolution
+    block and every overview block (io/tiles.py); a product without one
+    writes them into its intermediates.
     """
     r0, c0 = int(window.row_off), int(window.col_off)
     h, w = int(window.height), int(window.width)
@@ -135,7 +136,7 @@ def _write_chunk(job: Job, window, products: dict, sinks: dict, spools: dict) ->
             full[slice(r0, r0 + h), slice(c0, c0 + w)] = a
         else:
             spool.put(1, r0, c0, a)
-        wanted = tuple(sorted({*levels, *(spool.sink.factors[1:] if spool else ())}))
+        wanted = tuple(sorted({*levels, *(spool.sink.levels if spool else ())}))
         product = target_product(job, n)
         if product.is_flags:
             blocks = nearest_levels(a, wanted) if wanted else {}
@@ -170,18 +171,8 @@ def _batch_task(batch: tuple, grid: TargetGrid, window, shared: frozenset, strea
     spools = [{n: full.for_chunk(window) for n, (full, _) in sinks.items() if isinstance(full, TileSink)}
               for _, _, sinks in batch]
     try:
-        for block in sub_windows(window, compute_block(grid)):
-            # the slabs serve every block of the chunk; each block's resampling geometry only its own dates
-            ctx = ChunkContext(grid, block, shared, replace(memo, warps={}))
-            sums = [stream.block(block) for stream in streams]    # composites accumulated as dates go by
-            for i, (job, names, sinks) in enumerate(batch):
-                products = chunk_products(job, grid, block, names, reuse=True, ctx=ctx)
-                summary = _write_chunk(job, block, products, sinks, spools[i])
-                out[i] = summary if out[i] is None else {n: out[i][n].merge(summary[n]) for n in summary}
-                for s in sums:
-                    s.add(job, products)
-            for s in sums:
-                s.flush()
+        with gdal_env():      # once per task: the reads and writes inside skip GDAL's option set-up
+            _blocks(batch, grid, window, shared, streams, memo, spools, out)
         tiles = [{n: spool.close() for n, spool in date.items()} for date in spools]
     except BaseException:
         for date in spools:
@@ -189,6 +180,23 @@ def _batch_task(batch: tuple, grid: TargetGrid, window, shared: frozenset, strea
                 spool.discard()
         raise
     return list(zip(out, tiles))
+
+
+def _blocks(batch: tuple, grid: TargetGrid, window, shared: frozenset, streams: tuple, memo: ReadMemo,
+            spools: list, out: list) -> None:
+    """The compute blocks of one task's chunk, each for every date of the batch (see _batch_task)."""
+    for block in sub_windows(window, compute_block(grid)):
+        # the slabs serve every block of the chunk; each block's resampling geometry only its own dates
+        ctx = ChunkContext(grid, block, shared, replace(memo, warps={}))
+        sums = [stream.block(block) for stream in streams]    # composites accumulated as dates go by
+        for i, (job, names, sinks) in enumerate(batch):
+            products = chunk_products(job, grid, block, names, reuse=True, ctx=ctx)
+            summary = _write_chunk(job, block, products, sinks, spools[i])
+            out[i] = summary if out[i] is None else {n: out[i][n].merge(summary[n]) for n in summary}
+            for s in sums:
+                s.add(job, products)
+        for s in sums:
+            s.flush()
 
 
 #: edge of the blocks a chunk task computes one at a time [pixel]: what a task holds for one date

@@ -3,11 +3,9 @@
 Why this shape (measured on a 2-core machine, see benchmarks/README.md): compression, not arithmetic,
 bounds a run.  Two ways, chosen per product by the chunking:
 
-* **Tiles compressed in the tasks** (``ProductFile.tiled``: every chunk is made
-  of whole 512-pixel tiles, codec Zstandard or Deflate): each task applies the
-  TIFF predictor and codec to its own tiles on its own core and spools the
-  bytes (io/tiles.py); the COG is then laid out from them (io/cogfile.py).
-  Nothing is compressed twice and no uncompressed full-size copy is written.
+* **Tiles compressed in the tasks** (``ProductFile.tiled``: chunks of whole 512-pixel tiles, ZSTD or
+  DEFLATE): each task compresses its own tiles on its own core and spools the bytes (io/tiles.py);
+  the COG is laid out from them (io/cogfile.py).  Nothing is compressed twice.
 * **One COG pass** (any other chunk edge, or LZW): blocks are stored uncompressed into a tiled
   intermediate beside the target (in the page cache); GDAL's COG driver compresses it once.
 
@@ -54,7 +52,7 @@ from .cogcheck import check_tiles_written, verify_cog
 from .cogfile import georeferencing_tags, write_cog
 from .overviews import level_shape, overview_factors, reduce_level
 from .space import write_failure
-from .tiles import SPOOL_CODECS, TILE, TileCodec, TileSink
+from .tiles import SPOOL_CODECS, TILE, TileCodec, TileSink, level_array, level_tiles, stop_spools
 
 __all__ = ["COG_DEFAULTS", "COMPRESSIONS", "ProductFile", "WindowSink", "sweep_partials", "read_tags",
            "is_current", "PARTIAL_MARK", "before_rename"]
@@ -173,13 +171,9 @@ class ProductFile:
     the coarsest of them.  With no in-task factor the COG driver makes the
     overviews itself.
 
-    ``tiled`` (asked for by ``spool=True``, possible when every chunk is made of
-    whole 512-pixel tiles and the codec is Zstandard or Deflate): the tasks
-    compress the full-resolution tiles, and the overview tiles that lie inside
-    one chunk, themselves (``io/tiles.py``); the other overview levels go
-    through intermediates as above and are compressed here; ``io/cogfile.py``
-    lays the tiles out as the COG.  No uncompressed full-resolution copy and
-    no second compression pass.
+    ``tiled`` (``spool=True`` and chunks of whole 512-pixel tiles, ZSTD or DEFLATE): the tasks
+    spool compressed tiles and uncompressed overview blocks instead (io/tiles.py); ``finish``
+    compresses the overview tiles that span chunks and lays the COG out (io/cogfile.py).
     """
     final: Path
     grid: TargetGrid
@@ -203,11 +197,13 @@ class ProductFile:
         chunk = self.grid.chunk
         self.tiled = (self.spool and self.compression in SPOOL_CODECS and self.block == TILE
                       and chunk % TILE == 0)
-        # levels whose tiles the tasks compress: full resolution, and overview tiles inside one chunk
+        # tiles compressed in tasks: full resolution, overview tiles inside a chunk; other levels' blocks spooled raw
         self.task_tiles = (1, *(f for f in self.factors if chunk % (TILE * f) == 0)) if self.tiled else ()
         self.in_task = tuple(f for f in self.in_task if f in self.factors and f not in self.task_tiles)
+        self.raw_levels, self.in_task = (self.in_task, ()) if self.tiled else ((), self.in_task)
         self.level_files = {f: f"{stem}.ov{f}.tif" for f in self.factors}
         self._tiles: dict[tuple[int, int, int], tuple] = {}
+        self._blocks: list[tuple] = []
         self._lock = threading.Lock()
         self._sink_locks: dict[str, object] = {}
         self._sinks: list[WindowSink] = []
@@ -277,12 +273,14 @@ class ProductFile:
         """Where the tasks put this product's compressed tiles (``tiled`` products)."""
         codec = TileCodec(self.compression, int(CODEC_LEVEL[self.compression][1]), self.dtype, fill=self.nodata)
         return TileSink(self.stem, str(self.final), codec, self.grid.height, self.grid.width, self.task_tiles,
-                        self.block, need=self.need)
+                        self.block, need=self.need, blocks=self.raw_levels)
 
-    def add_tiles(self, index) -> None:
-        """Tiles a task spooled: ``(factor, tile_row, tile_col, path, offset, size, last4)`` each."""
-        for factor, tr, tc, *where in index:
+    def add_tiles(self, index: tuple[list, list]) -> None:
+        """What a task spooled (:meth:`TileSpool.close`): its tiles and its uncompressed level blocks."""
+        tiles, blocks = index
+        for factor, tr, tc, *where in tiles:
             self._tiles[(factor, tr, tc)] = tuple(where)
+        self._blocks += blocks
 
     def close_intermediate(self, *, check: bool = False) -> None:
         """Close the handles, each under its writers' lock; ``check``: raise if a write was lost.
@@ -348,17 +346,20 @@ class ProductFile:
                 raise GdalFailure(f"{self.partial_cog}: the COG copy failed ({exc})") from None
 
     def _assemble(self) -> None:
-        """``partial_cog`` from the spooled tiles, the level files' tiles compressed here first."""
-        if self.in_task:
-            self._coarser_levels()
+        """``partial_cog`` from the spooled tiles; the tiles of the block-spooled levels (and of any
+        level coarser still, averaged from the coarsest) compressed here first."""
         sink = self.tile_sink()
         spool, t = sink.spool(f"{self.stem}.levels.tiles"), TILE
-        for f in (f for f in self.factors if f not in self.task_tiles):
-            with gdal_env(), rasterio.open(self.level_files[f]) as ds:
-                for r in range(0, ds.height, t):
-                    for c in range(0, ds.width, t):
-                        win = Window(c, r, min(t, ds.width - c), min(t, ds.height - r))
-                        spool.write_tile(f, r // t, c // t, ds.read(1, window=win))
+        level_tiles(spool, self._blocks)
+        rest = [f for f in self.factors if f not in self.task_tiles and f not in self.raw_levels]
+        if rest:
+            base = max(self.raw_levels)
+            a = level_array(sink, self._blocks, base)
+            for f in rest:
+                level = reduce_level(a, f // base, nearest=self.categorical)
+                for r in range(0, level.shape[0], t):
+                    for c in range(0, level.shape[1], t):
+                        spool.write_tile(f, r // t, c // t, level[r:r + t, c:c + t])
         self.add_tiles(spool.close())
         geo = georeferencing_tags(crs=self.grid.crs, transform=self.grid.transform, dtype=self.dtype,
                                   nodata=self.nodata, tags=self.tags, description=self.band_description)
@@ -407,6 +408,7 @@ class ProductFile:
 
     def abort(self) -> None:
         self.close_intermediate()
+        stop_spools(self.stem)
         self._remove_temporaries()
 
 

@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import os
 import sys
+import threading
 import zlib
 from dataclasses import dataclass
 
@@ -26,12 +27,24 @@ import numpy as np
 from ..physics._jit import jit
 from .space import write_failure
 
-__all__ = ["TileCodec", "TileSink", "TileSpool", "TIFF_COMPRESSION", "SPOOL_CODECS", "TILE"]
+__all__ = ["TileCodec", "TileSink", "TileSpool", "TIFF_COMPRESSION", "SPOOL_CODECS", "TILE", "stop_spools",
+           "level_tiles", "level_array"]
 
 TILE = 512
 #: TIFF Compression tag values (TIFF 6.0; 50000 is the registered Zstandard code libtiff uses)
 TIFF_COMPRESSION = {"zstd": 50000, "deflate": 8}
 SPOOL_CODECS = tuple(TIFF_COMPRESSION)
+
+# products given up in this process (their stems): a task still running must not start a spool file
+# after the product's temporaries were removed
+_stopped: set[str] = set()
+_stop_lock = threading.Lock()
+
+
+def stop_spools(stem: str) -> None:
+    """No task of this process starts a spool file for ``stem`` from now on (call before removing them)."""
+    with _stop_lock:
+        _stopped.add(stem)
 
 
 def float_predictor(a: np.ndarray) -> np.ndarray:
@@ -132,8 +145,11 @@ class TileSink:
     Shared by every task (and pickled to cluster workers); :meth:`for_chunk`
     gives a task its own :class:`TileSpool`.  ``factors``: the levels whose
     tiles the tasks make (1 = full resolution, then overview factors whose
-    tiles lie inside one chunk); ``block``: the edge of the blocks a task
-    hands over [full-resolution pixels, a divisor of ``codec.tile``].
+    tiles lie inside one chunk); ``blocks``: the overview factors whose tiles
+    span several chunks: the tasks spool their blocks uncompressed and the
+    tiles are put together and compressed when the product is finished;
+    ``block``: the edge of the blocks a task hands over [full-resolution
+    pixels, a divisor of ``codec.tile``].
     """
     stem: str
     final: str
@@ -143,6 +159,12 @@ class TileSink:
     factors: tuple[int, ...]
     block: int
     need: int = 0
+    blocks: tuple[int, ...] = ()
+
+    @property
+    def levels(self) -> tuple[int, ...]:
+        """Every overview factor the spool takes."""
+        return (*self.factors[1:], *self.blocks)
 
     def for_chunk(self, window) -> "TileSpool":
         return self.spool(f"{self.stem}.c{int(window.row_off)}-{int(window.col_off)}.tiles")
@@ -156,9 +178,11 @@ class TileSpool:
 
     Full-resolution blocks are whole tiles; an overview tile gathers the
     level blocks of every compute block under it and is encoded when the last
-    one arrives.  :meth:`close` returns the index: ``(factor, tile_row,
-    tile_col, path, offset, size, last4)`` per tile (``last4``: the tile's
-    last four bytes, which the COG repeats after each tile).
+    one arrives.  :meth:`close` returns the index: the tiles, ``(factor,
+    tile_row, tile_col, path, offset, size, last4)`` each (``last4``: the
+    tile's last four bytes, which the COG repeats after each tile), and the
+    uncompressed blocks of the ``blocks`` levels, ``(factor, row, col, path,
+    offset, height, width)`` each.
     """
 
     def __init__(self, sink: TileSink, path: str):
@@ -166,11 +190,16 @@ class TileSpool:
         self._fh = None
         self._offset = 0
         self._index: list[tuple] = []
+        self._raw: list[tuple] = []
         self._canvas: dict[tuple[int, int, int], list] = {}   # (factor, tr, tc) -> [array, blocks left]
 
     def put(self, factor: int, row: int, col: int, block: np.ndarray) -> None:
         """``block`` of level ``factor`` at level pixel (``row``, ``col``)."""
         t, s = self.sink.codec.tile, self.sink
+        if factor in s.blocks:
+            data = np.ascontiguousarray(block, dtype=s.codec.dtype)
+            self._raw.append((factor, row, col, self.path, self._append(data), *data.shape))
+            return
         if factor == 1:
             if row % t or col % t or block.shape[0] > t or block.shape[1] > t:
                 raise ValueError(f"{self.path}: block at ({row}, {col}) {block.shape} is not one tile")
@@ -200,17 +229,25 @@ class TileSpool:
     def write_tile(self, factor: int, tr: int, tc: int, tile: np.ndarray) -> None:
         """Encode one whole tile (or its part inside the raster) of level ``factor`` and append it."""
         data = self.sink.codec.encode(tile)
+        self._index.append((factor, tr, tc, self.path, self._append(data), len(data), data[-4:]))
+
+    def _append(self, data) -> int:
+        """Append ``data`` (bytes or an array) to the file; its offset."""
         try:
             if self._fh is None:
-                self._fh = open(self.path, "wb")
+                with _stop_lock:
+                    if self.sink.stem in _stopped:
+                        raise RuntimeError(f"{self.sink.final}: product aborted")
+                    self._fh = open(self.path, "wb")
             self._fh.write(data)
         except OSError as exc:
             raise write_failure(self.sink.final, exc, need=self.sink.need) from None
-        self._index.append((factor, tr, tc, self.path, self._offset, len(data), data[-4:]))
-        self._offset += len(data)
+        at = self._offset
+        self._offset += memoryview(data).nbytes
+        return at
 
-    def close(self) -> list[tuple]:
-        """Flush the file; the index of its tiles.  Tiles still waiting for blocks are a bug."""
+    def close(self) -> tuple[list, list]:
+        """Flush the file; the index of its tiles and blocks.  Tiles still waiting for blocks are a bug."""
         if self._canvas:
             raise RuntimeError(f"{self.path}: overview tiles left incomplete: {sorted(self._canvas)}")
         if self._fh is not None:
@@ -219,7 +256,7 @@ class TileSpool:
             except OSError as exc:
                 raise write_failure(self.sink.final, exc, need=self.sink.need) from None
             self._fh = None
-        return self._index
+        return self._index, self._raw
 
     def discard(self) -> None:
         if self._fh is not None:
@@ -229,3 +266,58 @@ class TileSpool:
             os.remove(self.path)
         except FileNotFoundError:
             pass
+
+
+def level_tiles(spool: TileSpool, blocks: list[tuple]) -> None:
+    """Encode into ``spool`` every tile of the levels the tasks spooled as uncompressed blocks.
+
+    ``blocks``: the blocks' index entries (see :class:`TileSpool`); each
+    block lies inside one tile, so tiles are put together one at a time.
+    """
+    s, t = spool.sink, spool.sink.codec.tile
+    by_tile: dict[tuple[int, int, int], list] = {}
+    for entry in blocks:
+        f, r, c = entry[:3]
+        by_tile.setdefault((f, r // t, c // t), []).append(entry)
+    with _BlockReader(s.codec.dtype) as reader:
+        for (f, tr, tc), parts in sorted(by_tile.items()):
+            canvas = np.full((t, t), s.codec.fill, dtype=s.codec.dtype)
+            for _, r, c, path, off, h, w in parts:
+                canvas[r - tr * t:r - tr * t + h, c - tc * t:c - tc * t + w] = reader.read(path, off, h, w)
+            lh, lw = -(-s.height // f), -(-s.width // f)
+            spool.write_tile(f, tr, tc, canvas[:min(t, lh - tr * t), :min(t, lw - tc * t)])
+
+
+def level_array(sink: TileSink, blocks: list[tuple], factor: int) -> np.ndarray:
+    """The whole level ``factor`` from its spooled blocks (for the coarsest levels: small)."""
+    out = np.full((-(-sink.height // factor), -(-sink.width // factor)), sink.codec.fill, dtype=sink.codec.dtype)
+    with _BlockReader(sink.codec.dtype) as reader:
+        for f, r, c, path, off, h, w in blocks:
+            if f == factor:
+                out[r:r + h, c:c + w] = reader.read(path, off, h, w)
+    return out
+
+
+class _BlockReader:
+    """Uncompressed blocks read back from spool files (one descriptor per file)."""
+
+    def __init__(self, dtype: str):
+        self.dtype = np.dtype(dtype)
+        self.fds: dict[str, int] = {}
+
+    def read(self, path: str, offset: int, h: int, w: int) -> np.ndarray:
+        fd = self.fds.get(path)
+        if fd is None:
+            fd = self.fds[path] = os.open(path, os.O_RDONLY)
+        n = h * w * self.dtype.itemsize
+        data = os.pread(fd, n, offset)
+        if len(data) != n:
+            raise OSError(f"{path}: spooled block at byte {offset} is cut off")
+        return np.frombuffer(data, dtype=self.dtype).reshape(h, w)
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc):
+        for fd in self.fds.values():
+            os.close(fd)
