@@ -23,6 +23,8 @@ import pytest
 import rasterio
 from rasterio.transform import from_origin
 
+from rio_cogeo.cogeo import cog_validate
+
 from radledger.config.load import load_config
 from radledger.io import tiles as tilesmod
 from radledger.io.cogfile import GHOST, georeferencing_tags, write_cog
@@ -116,6 +118,17 @@ def test_tiled_cog_follows_gdal_cog_layout(tmp_path):
             assert raw[off + size:off + size + 4] == raw[off + size - 4:off + size]   # trailer: last 4 bytes
 
 
+@pytest.mark.parametrize("compression", ["zstd", "deflate"])
+def test_tiled_products_pass_rio_cogeo_validation(tmp_path, compression):
+    # rio-cogeo's cog_validate: the rasterio port of GDAL's validate_cloud_optimized_geotiff.py
+    scn = make_scenario(tmp_path, shape=(1100, 1300), chunk=1024)
+    out = _run(scn, "out", 1024, compression)
+    for name in PRODUCTS:
+        (path,) = out.glob(f"{name}_*.tif")
+        valid, errors, warnings = cog_validate(str(path), strict=True, quiet=True)
+        assert valid and not errors and not warnings, (name, errors, warnings)
+
+
 def _spool_cog(path, a, codec, factors=(), bigtiff=None, crs="EPSG:32611"):
     """A COG of ``a`` (no overviews) through the spool and the layout writer."""
     h, w = a.shape
@@ -162,6 +175,8 @@ def test_gdal_decodes_spooled_tiles_classic_and_bigtiff(tmp_path, bigtiff, dtype
     path = tmp_path / "x.tif"
     _spool_cog(path, a, codec, bigtiff=bigtiff)
     assert path.read_bytes()[:4] == (b"II+\x00" if bigtiff else b"II*\x00")
+    valid, errors, _ = cog_validate(str(path), quiet=True)       # (no overviews here: a warning only)
+    assert valid and not errors, errors
     with rasterio.open(path) as ds:
         np.testing.assert_array_equal(ds.read(1), a)
         assert ds.tags()["units"] == "W m-2" and ds.descriptions == ("fixture",)

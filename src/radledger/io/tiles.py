@@ -4,8 +4,11 @@ A product whose chunks are whole 512 x 512 tiles does not need GDAL's second
 pass over an uncompressed intermediate: each task applies the TIFF predictor
 and the codec to its own tiles (on every core, while the next chunk computes)
 and appends the compressed bytes to its spool file; ``io/cogfile.py`` then
-lays the spooled tiles out as a COG.  Overview tiles are compressed in the
-task too, as soon as the blocks under them are done.
+lays the spooled tiles out as a COG.  An overview tile that lies inside the
+task's chunk is compressed in the task too, as soon as the blocks under it are
+done; the blocks of coarser levels, whose tiles span several chunks, are
+spooled uncompressed (a few kilobytes each) and put together into tiles when
+the product is finished (:func:`level_tiles`).
 
 The encodings are the TIFF 6.0 ones (Adobe, 1992): predictor 2 (horizontal
 differencing, section 14) for integers and predictor 3 (floating point, Adobe
