@@ -359,3 +359,29 @@ def test_terrain_beyond_the_grid_casts_its_shadow_into_it(tmp_path):
     shaded = got[:, 24] < 0.5 * got[0, 24]
     # geometry as behind the wall above: the edge within 2 pixels of H cos(delta) / tan(e)
     assert abs(distance[shaded].max() - length) <= 2 * WALL_RES
+
+
+def test_terrain_layers_do_not_depend_on_the_chunk_edge(tmp_path, monkeypatch):
+    # Rays are turned by the grid's convergence and scaled by the ground pixel size of the grid-aligned
+    # block a pixel is in, not of its chunk: any chunk edge gives the same layers and products.
+    # (Blocks of 32 pixels here so a small grid has several; common practice: results of a chunked
+    # computation must not depend on the chunking.)
+    from radledger.model import terrain_layers
+    monkeypatch.setattr(terrain_layers, "TERRAIN_BLOCK", 32)
+    yy, xx = np.mgrid[0:96, 0:80]
+    dem = 900.0 + 400.0 * np.exp(-((yy - 40) ** 2 + (xx - 30) ** 2) / 300.0) + 3.0 * np.sin(xx / 3.0) * np.cos(yy / 4.0)
+    outs = []
+    for chunk in (16, 48, 64):
+        cfg = terrain_config(tmp_path / f"c{chunk}", dem, res=30.0, scenes=[("2026-06-21T15:00:00Z", 700.0)],
+                             terrain="shading", chunk=chunk, products=("incident_shortwave", "net_radiation"))
+        run_config(load_config(cfg))
+        outs.append(tmp_path / f"c{chunk}" / "out")
+    paths = sorted(outs[0].rglob("*.tif"))
+    assert len(paths) == 3 + 36 + 2
+    for path in paths:
+        for other in outs[1:]:
+            got, want = read(other / path.relative_to(outs[0])), read(path)
+            if path.parent.name == "horizons":
+                np.testing.assert_array_equal(got, want, err_msg=path.name)
+            else:    # grid north and the sun are interpolated on lattices anchored at each chunk: float32
+                np.testing.assert_allclose(got, want, rtol=1e-6, atol=1e-4, err_msg=path.name)   # rounding

@@ -40,7 +40,8 @@ from ..physics._jit import jit
 from ..physics.horizon import _dem, _ray_max_tangent, _ray_step
 
 __all__ = ["HORIZON_AZIMUTHS", "MIN_SUN_ELEVATION", "MAX_HALO", "terrain_halo", "read_dem_with_halo",
-           "chunk_terrain", "horizon_angles_inside", "horizon_name", "pixel_metres", "grid_north_offset"]
+           "chunk_terrain", "horizon_angles_inside", "horizon_name", "pixel_metres", "grid_north_offset",
+           "terrain_blocks", "TERRAIN_BLOCK"]
 
 #: directions of the stored horizon angles, clockwise from north [deg]
 HORIZON_AZIMUTHS = tuple(float(a) for a in range(0, 360, 10))
@@ -96,6 +97,45 @@ def grid_north_offset(grid: TargetGrid, window: Window, *, step: int = 32) -> np
     x1, y1 = Transformer.from_crs("EPSG:4326", grid.crs, always_xy=True).transform(lon, lat + 1e-4)
     offset = np.degrees(np.arctan2(np.asarray(x1) - x, np.asarray(y1) - y))
     return points.spread(offset)
+
+
+#: edge of the grid-aligned blocks that share one ray turn and one ground pixel size [pixel]
+TERRAIN_BLOCK = 512
+
+
+def terrain_blocks(grid: TargetGrid, window: Window, edge: int | None = None) -> list[tuple]:
+    """The parts of ``window`` in each ``edge``-pixel block of the grid, with what is held constant there.
+
+    ``(part, dx, dy, turn)`` per block: ``part`` the window's share of it; ``dx``, ``dy`` the ground
+    pixel size [m] and ``turn`` the grid azimuth of true north [deg], both at the centre of the whole
+    block, so a pixel gets the same values whatever the chunk edge (a chunk's own centre would make
+    the horizons depend on it).
+    """
+    edge = edge or TERRAIN_BLOCK
+    r0, c0 = int(window.row_off), int(window.col_off)
+    r1, c1 = r0 + int(window.height), c0 + int(window.width)
+    parts = []
+    for br in range(r0 // edge * edge, r1, edge):
+        for bc in range(c0 // edge * edge, c1, edge):
+            top, left = max(br, r0), max(bc, c0)
+            part = Window(left, top, min(bc + edge, c1) - left, min(br + edge, r1) - top)
+            dx, dy = pixel_metres(grid, Window(bc, br, edge, edge))
+            parts.append((part, dx, dy, (br + edge / 2, bc + edge / 2)))
+    turns = _north_at(grid, [p[3] for p in parts])
+    return [(part, dx, dy, turn) for (part, dx, dy, _), turn in zip(parts, turns)]
+
+
+def _north_at(grid: TargetGrid, points: list[tuple[float, float]]) -> list[float]:
+    """Grid azimuth of true north [deg] at (row, column) positions (as :func:`grid_north_offset`)."""
+    if grid.crs.is_geographic or not points:
+        return [0.0] * len(points)
+    from pyproj import Transformer
+    t = grid.transform
+    x = np.array([t.c + c * t.a + r * t.b for r, c in points])
+    y = np.array([t.f + c * t.d + r * t.e for r, c in points])
+    lon, lat = grid.to_lonlat(x, y)
+    x1, y1 = Transformer.from_crs("EPSG:4326", grid.crs, always_xy=True).transform(lon, np.asarray(lat) + 1e-4)
+    return [float(v) for v in np.degrees(np.arctan2(np.asarray(x1) - x, np.asarray(y1) - y))]
 
 
 def terrain_halo(relief: float, grid: TargetGrid, method: str) -> int:
@@ -181,13 +221,14 @@ def horizon_angles_inside(z: np.ndarray, halo: int, dx: float, dy: float, azimut
 
 
 def chunk_terrain(z: np.ndarray, filled: np.ndarray, halo: int, dx: float, dy: float, method: str,
-                  north: np.ndarray | float = 0.0) -> dict[str, np.ndarray]:
+                  north: np.ndarray | float = 0.0, turn: float | None = None) -> dict[str, np.ndarray]:
     """Every static terrain layer of the chunk inside a DEM read with :func:`read_dem_with_halo`.
 
     ``slope`` [deg], ``aspect`` [deg clockwise from true north, NaN where flat],
     ``sky_view_factor`` [1] and, for ``shading``, ``horizon_AAA`` [deg] toward each of
     :data:`HORIZON_AZIMUTHS` (true north); float32, shaped like the chunk.  ``north``: the grid
-    azimuth of true north over the chunk [deg] (:func:`grid_north_offset`).
+    azimuth of true north over the chunk [deg] (:func:`grid_north_offset`); ``turn``: the one
+    grid azimuth of true north the rays are turned by [deg] (None: ``north`` at the chunk's centre).
     """
     inner = (slice(halo, z.shape[0] - halo), slice(halo, z.shape[1] - halo))
     ring = (slice(halo - 1, z.shape[0] - halo + 1), slice(halo - 1, z.shape[1] - halo + 1))
@@ -199,8 +240,9 @@ def chunk_terrain(z: np.ndarray, filled: np.ndarray, halo: int, dx: float, dy: f
     out = {"slope": slope.astype(np.float32), "aspect": aspect.astype(np.float32)}
     if method == "shading":
         # rays along the true azimuths: turned by the convergence at the chunk's centre
-        north = np.asarray(north, dtype=np.float64)
-        turn = float(north[north.shape[0] // 2, north.shape[1] // 2]) if north.ndim == 2 else float(north)
+        if turn is None:
+            north = np.asarray(north, dtype=np.float64)
+            turn = float(north[north.shape[0] // 2, north.shape[1] // 2]) if north.ndim == 2 else float(north)
         rays = [a + turn for a in HORIZON_AZIMUTHS]
         horizons = horizon_angles_inside(z, halo, dx, dy, rays, halo * min(dx, dy))
         svf = ph.dozier_frew_1990_sky_view_factor(horizons, HORIZON_AZIMUTHS, slope, aspect)

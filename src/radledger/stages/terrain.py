@@ -20,7 +20,7 @@ from ..grid import TargetGrid
 from ..io.cog import ProductFile, is_current
 from ..model.products import terrain_product
 from ..model.terrain import TerrainLayers
-from ..model.terrain_layers import (chunk_terrain, grid_north_offset, pixel_metres, read_dem_with_halo,
+from ..model.terrain_layers import (chunk_terrain, grid_north_offset, read_dem_with_halo, terrain_blocks,
                                     terrain_halo)
 from ..planning.plan import Plan
 from ..planning.provenance import terrain_tags
@@ -64,13 +64,25 @@ def _relief(dem, grid: TargetGrid, engine: Engine) -> tuple[float, int]:
 
 
 def _terrain_task(terrain: TerrainLayers, grid: TargetGrid, window, halo: int, sinks: dict) -> None:
-    """Compute every static layer of one chunk and write the ones asked for."""
+    """Compute every static layer of one chunk and write the ones asked for.
+
+    The chunk is computed block by grid-aligned block (model/terrain_layers.terrain_blocks), so
+    the layers do not depend on the chunk edge.
+    """
     z, filled = read_dem_with_halo(terrain.dem, grid, window, halo)
-    dx, dy = pixel_metres(grid, window)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        layers = chunk_terrain(z, filled, halo, dx, dy, terrain.method, grid_north_offset(grid, window))
+    north = grid_north_offset(grid, window)
     r0, c0 = int(window.row_off), int(window.col_off)
     h, w = int(window.height), int(window.width)
+    layers: dict[str, np.ndarray] = {}
+    for part, dx, dy, turn in terrain_blocks(grid, window):
+        pr, pc = int(part.row_off) - r0, int(part.col_off) - c0
+        ph, pw = int(part.height), int(part.width)
+        inner = (slice(pr, pr + ph + 2 * halo), slice(pc, pc + pw + 2 * halo))
+        with np.errstate(invalid="ignore", divide="ignore"):
+            block = chunk_terrain(z[inner], filled[inner], halo, dx, dy, terrain.method,
+                                  north[pr:pr + ph, pc:pc + pw], turn=turn)
+        for n, a in block.items():
+            layers.setdefault(n, np.empty((h, w), dtype=np.float32))[pr:pr + ph, pc:pc + pw] = a
     for n, sink in sinks.items():
         sink[slice(r0, r0 + h), slice(c0, c0 + w)] = layers[n]
 
