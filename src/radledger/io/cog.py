@@ -52,7 +52,7 @@ from .cogcheck import check_tiles_written, verify_cog
 from .cogfile import georeferencing_tags, write_cog
 from .overviews import level_shape, overview_factors, reduce_level
 from .space import write_failure
-from .tiles import SPOOL_CODECS, TILE, TileCodec, TileSink, level_array, level_tiles, stop_spools
+from .tiles import SPOOL_CODECS, TILE, TileCodec, TileSink, spool_levels, stop_spools
 
 __all__ = ["COG_DEFAULTS", "COMPRESSIONS", "ProductFile", "WindowSink", "sweep_partials", "read_tags",
            "is_current", "PARTIAL_MARK", "before_rename"]
@@ -349,18 +349,14 @@ class ProductFile:
         """``partial_cog`` from the spooled tiles; the tiles of the block-spooled levels (and of any
         level coarser still, averaged from the coarsest) compressed here first."""
         sink = self.tile_sink()
-        spool, t = sink.spool(f"{self.stem}.levels.tiles"), TILE
-        level_tiles(spool, self._blocks)
-        rest = [f for f in self.factors if f not in self.task_tiles and f not in self.raw_levels]
-        if rest:
-            base = max(self.raw_levels)
-            a = level_array(sink, self._blocks, base)
-            for f in rest:
-                level = reduce_level(a, f // base, nearest=self.categorical)
-                for r in range(0, level.shape[0], t):
-                    for c in range(0, level.shape[1], t):
-                        spool.write_tile(f, r // t, c // t, level[r:r + t, c:c + t])
-        self.add_tiles(spool.close())
+        spool = sink.spool(f"{self.stem}.levels.tiles")
+        try:        # (a failed write must not leave the file open: a full disk could not be unmounted)
+            rest = [f for f in self.factors if f not in self.task_tiles and f not in self.raw_levels]
+            spool_levels(spool, self._blocks, rest, max(self.raw_levels, default=1), nearest=self.categorical)
+            self.add_tiles(spool.close())
+        except BaseException:
+            spool.discard()
+            raise
         geo = georeferencing_tags(crs=self.grid.crs, transform=self.grid.transform, dtype=self.dtype,
                                   nodata=self.nodata, tags=self.tags, description=self.band_description)
         write_cog(self.partial_cog, codec=sink.codec, width=self.grid.width, height=self.grid.height,

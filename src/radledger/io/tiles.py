@@ -28,10 +28,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..physics._jit import jit
+from .overviews import reduce_level
 from .space import write_failure
 
 __all__ = ["TileCodec", "TileSink", "TileSpool", "TIFF_COMPRESSION", "SPOOL_CODECS", "TILE", "stop_spools",
-           "level_tiles", "level_array"]
+           "spool_levels", "level_tiles", "level_array"]
 
 TILE = 512
 #: TIFF Compression tag values (TIFF 6.0; 50000 is the registered Zstandard code libtiff uses)
@@ -262,13 +263,30 @@ class TileSpool:
         return self._index, self._raw
 
     def discard(self) -> None:
-        if self._fh is not None:
-            self._fh.close()
-            self._fh = None
+        """Close (even after a failed write) and remove the file."""
+        fh, self._fh = self._fh, None
+        if fh is not None:
+            try:
+                fh.close()
+            except OSError:
+                pass
         try:
             os.remove(self.path)
         except FileNotFoundError:
             pass
+
+
+def spool_levels(spool: TileSpool, blocks: list[tuple], rest, base: int, *, nearest: bool) -> None:
+    """Encode into ``spool`` the tiles of the levels spooled as blocks, then those of the levels
+    ``rest`` (coarser than any task's), reduced from level ``base``."""
+    level_tiles(spool, blocks)
+    t = spool.sink.codec.tile
+    a = level_array(spool.sink, blocks, base) if rest else None
+    for f in rest:
+        level = reduce_level(a, f // base, nearest=nearest)
+        for r in range(0, level.shape[0], t):
+            for c in range(0, level.shape[1], t):
+                spool.write_tile(f, r // t, c // t, level[r:r + t, c:c + t])
 
 
 def level_tiles(spool: TileSpool, blocks: list[tuple]) -> None:
