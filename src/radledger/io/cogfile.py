@@ -23,6 +23,7 @@ from rasterio.io import MemoryFile
 
 from .gdalapi import gdal_failures
 from .gdalenv import gdal_env
+from .overviews import level_shape
 from .tiles import TIFF_COMPRESSION, TileCodec
 
 __all__ = ["write_cog", "georeferencing_tags", "GHOST"]
@@ -118,7 +119,7 @@ def write_cog(path: str, *, codec: TileCodec, width: int, height: int, factors: 
     Raises ``OSError`` naming the first missing tile.
     """
     t = codec.tile
-    levels = [(1, width, height)] + [(f, -(-width // f), -(-height // f)) for f in factors]
+    levels = [(1, width, height)] + [(f, *level_shape(height, width, f)[::-1]) for f in factors]
     order = []                         # tiles per level, row-major
     for f, w, h in levels:
         keys = [(f, r, c) for r in range(-(-h // t)) for c in range(-(-w // t))]

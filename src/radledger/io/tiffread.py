@@ -19,14 +19,14 @@ days.  Anything else returns ``None`` and GDAL reads the window.
 from __future__ import annotations
 
 import os
-import sys
 import threading
 import zlib
 
 import numpy as np
 from rasterio.enums import MaskFlags
 
-from ..physics._jit import jit
+from ..physics._jit import jit, numba_loaded
+from .tiles import zstd_codec
 
 __all__ = ["read_tiles", "BrokenTile"]
 
@@ -41,7 +41,7 @@ _lock = threading.Lock()
 
 def read_tiles(ds, window) -> np.ndarray | None:
     """``window`` of band 1 of ``ds`` decoded from its tiles, or None where GDAL has to read it."""
-    if "numba" not in sys.modules:
+    if not numba_loaded():
         return None
     try:
         st = os.stat(ds.name)
@@ -130,7 +130,7 @@ class _TileReader:
             raise BrokenTile(f"tile ({tr}, {tc}) is cut off")
         try:
             if self.codec == "zstd":
-                data = _zstd().decode(data)
+                data = zstd_codec().decode(data)
             elif self.codec == "deflate":
                 data = zlib.decompress(data)
         except (RuntimeError, ValueError, zlib.error) as exc:
@@ -145,16 +145,6 @@ class _TileReader:
         if self.predictor == 2:
             a = _undo_horizontal_predictor(a.copy())
         return a
-
-
-_ZSTD: list = []
-
-
-def _zstd():
-    if not _ZSTD:
-        from numcodecs.zstd import Zstd
-        _ZSTD.append(Zstd())
-    return _ZSTD[0]
 
 
 @jit(nogil=True, cache=True)

@@ -2,7 +2,7 @@
 
 A product whose chunks are whole 512 x 512 tiles does not need GDAL's second
 pass over an uncompressed intermediate: each task applies the TIFF predictor
-and the codec to its own tiles (on every core, while the next chunk computes)
+and the codec to its own tiles (on the core that computed them, beside the other tasks)
 and appends the compressed bytes to its spool file; ``io/cogfile.py`` then
 lays the spooled tiles out as a COG.  An overview tile that lies inside the
 task's chunk is compressed in the task too, as soon as the blocks under it are
@@ -20,19 +20,18 @@ code 8).
 from __future__ import annotations
 
 import os
-import sys
 import threading
 import zlib
 from dataclasses import dataclass
 
 import numpy as np
 
-from ..physics._jit import jit
-from .overviews import reduce_level
+from ..physics._jit import jit, numba_loaded
+from .overviews import level_shape, reduce_level
 from .space import write_failure
 
 __all__ = ["TileCodec", "TileSink", "TileSpool", "TIFF_COMPRESSION", "SPOOL_CODECS", "TILE", "stop_spools",
-           "spool_levels", "level_tiles", "level_array"]
+           "spool_levels", "level_tiles", "level_array", "zstd_codec"]
 
 TILE = 512
 #: TIFF Compression tag values (TIFF 6.0; 50000 is the registered Zstandard code libtiff uses)
@@ -60,7 +59,7 @@ def float_predictor(a: np.ndarray) -> np.ndarray:
     """
     h, w = a.shape
     raw = np.ascontiguousarray(a, dtype="<f4").view(np.uint8).reshape(h, 4 * w)
-    if "numba" in sys.modules:
+    if numba_loaded():
         return _float_predictor_loop(raw, np.empty_like(raw))
     planes = raw.reshape(h, w, 4)[:, :, ::-1]
     b = np.ascontiguousarray(planes.transpose(0, 2, 1)).reshape(h, 4 * w)
@@ -126,15 +125,15 @@ class TileCodec:
             a = full
         raw = float_predictor(a) if self.dtype == "float32" else horizontal_predictor(a)
         if self.compression == "zstd":
-            return _zstd(self.level).encode(raw)
+            return zstd_codec(self.level).encode(raw)
         return zlib.compress(raw, self.level)
 
 
 _ZSTD: dict[int, object] = {}
 
 
-def _zstd(level: int):
-    """numcodecs' Zstandard codec (it releases the GIL while compressing); imported when first needed."""
+def zstd_codec(level: int = 1):
+    """numcodecs' Zstandard codec (it releases the GIL); imported when first needed.  Any level decodes."""
     codec = _ZSTD.get(level)
     if codec is None:
         from numcodecs.zstd import Zstd
@@ -218,10 +217,9 @@ class TileSpool:
         r, c = row - tr * t, col - tc * t
         entry[0][r:r + block.shape[0], c:c + block.shape[1]] = block
         entry[1] -= 1
-        if entry[1] == 0:
+        if entry[1] == 0:               # (beyond the raster the canvas holds the padding value already)
             del self._canvas[key]
-            lh, lw = -(-s.height // factor), -(-s.width // factor)
-            self.write_tile(factor, tr, tc, entry[0][:min(t, lh - tr * t), :min(t, lw - tc * t)])
+            self.write_tile(factor, tr, tc, entry[0])
 
     def _blocks_under(self, factor: int, tr: int, tc: int) -> int:
         """Compute blocks that cover level tile (tr, tc), clipped to the raster."""
@@ -305,13 +303,12 @@ def level_tiles(spool: TileSpool, blocks: list[tuple]) -> None:
             canvas = np.full((t, t), s.codec.fill, dtype=s.codec.dtype)
             for _, r, c, path, off, h, w in parts:
                 canvas[r - tr * t:r - tr * t + h, c - tc * t:c - tc * t + w] = reader.read(path, off, h, w)
-            lh, lw = -(-s.height // f), -(-s.width // f)
-            spool.write_tile(f, tr, tc, canvas[:min(t, lh - tr * t), :min(t, lw - tc * t)])
+            spool.write_tile(f, tr, tc, canvas)
 
 
 def level_array(sink: TileSink, blocks: list[tuple], factor: int) -> np.ndarray:
     """The whole level ``factor`` from its spooled blocks (for the coarsest levels: small)."""
-    out = np.full((-(-sink.height // factor), -(-sink.width // factor)), sink.codec.fill, dtype=sink.codec.dtype)
+    out = np.full(level_shape(sink.height, sink.width, factor), sink.codec.fill, dtype=sink.codec.dtype)
     with _BlockReader(sink.codec.dtype) as reader:
         for f, r, c, path, off, h, w in blocks:
             if f == factor:

@@ -90,13 +90,17 @@ def grid_north_offset(grid: TargetGrid, window: Window, *, step: int = 32) -> np
     h, w = int(window.height), int(window.width)
     if grid.crs.is_geographic:
         return np.zeros((h, w))
-    from pyproj import Transformer
     points = grid.lattice(window, step=step)
-    x, y = points.xy()
+    return points.spread(_north_of(grid, *points.xy()))
+
+
+def _north_of(grid: TargetGrid, x, y) -> np.ndarray:
+    """Grid azimuth of true north [deg] at projected coordinates: toward a point 1e-4 deg north."""
+    from pyproj import Transformer
+    x, y = np.asarray(x, dtype=np.float64), np.asarray(y, dtype=np.float64)
     lon, lat = grid.to_lonlat(x, y)
-    x1, y1 = Transformer.from_crs("EPSG:4326", grid.crs, always_xy=True).transform(lon, lat + 1e-4)
-    offset = np.degrees(np.arctan2(np.asarray(x1) - x, np.asarray(y1) - y))
-    return points.spread(offset)
+    x1, y1 = Transformer.from_crs("EPSG:4326", grid.crs, always_xy=True).transform(lon, np.asarray(lat) + 1e-4)
+    return np.degrees(np.arctan2(np.asarray(x1) - x, np.asarray(y1) - y))
 
 
 #: edge of the grid-aligned blocks that share one ray turn and one ground pixel size [pixel]
@@ -129,13 +133,10 @@ def _north_at(grid: TargetGrid, points: list[tuple[float, float]]) -> list[float
     """Grid azimuth of true north [deg] at (row, column) positions (as :func:`grid_north_offset`)."""
     if grid.crs.is_geographic or not points:
         return [0.0] * len(points)
-    from pyproj import Transformer
     t = grid.transform
-    x = np.array([t.c + c * t.a + r * t.b for r, c in points])
-    y = np.array([t.f + c * t.d + r * t.e for r, c in points])
-    lon, lat = grid.to_lonlat(x, y)
-    x1, y1 = Transformer.from_crs("EPSG:4326", grid.crs, always_xy=True).transform(lon, np.asarray(lat) + 1e-4)
-    return [float(v) for v in np.degrees(np.arctan2(np.asarray(x1) - x, np.asarray(y1) - y))]
+    x = [t.c + c * t.a + r * t.b for r, c in points]
+    y = [t.f + c * t.d + r * t.e for r, c in points]
+    return [float(v) for v in _north_of(grid, x, y)]
 
 
 def terrain_halo(relief: float, grid: TargetGrid, method: str) -> int:

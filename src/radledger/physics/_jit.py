@@ -10,8 +10,14 @@ each other), then runs the compiled code.
 from __future__ import annotations
 
 import functools
+import sys
 
-__all__ = ["jit"]
+__all__ = ["jit", "numba_loaded"]
+
+
+def numba_loaded() -> bool:
+    """Whether Numba is already imported in this process (a compiled path then costs no import)."""
+    return "numba" in sys.modules
 
 
 class _Lazy:
